@@ -13,12 +13,19 @@ much larger than the inductance L between the steps, so the energised steps
 supply the first peak and only L counts):
     C_eq = C1·C2/(C1 + C2),  I_pk = V_pk·√(C_eq/L),  f = 1/(2π√(L·C_eq)).
 
+The source keeps driving the steady 60/50 Hz current, whose peak √2·I_c
+(I_c of the switched step) adds to the ring: in the lossless circuit the
+first-cycle maximum is about V_pk/Z0·(1 + f1/f0) = V_pk/Z0 + √2·I_c — the
+"(1 + √(X_C/X_S))" form. ``peak_a`` is that sum (transient + steady-state
+peak); ``transient_peak_a`` the formula alone. The capability check uses
+``peak_a``; the f·I product uses the transient peak.
+
 V_pk is the peak line-to-neutral voltage √2·V/√3 (three phase) or √2·V
 (single phase); C is the per-phase wye-equivalent capacitance Q/(ω·V²) and
 L_s = V²/(ω·S_sc) the source inductance per phase.
 
 To bring a peak within a device's capability I_max, the loop inductance must
-be at least V_pk²·C/I_max²; to keep f·I_pk ≤ (f·I)_max it must be at least
+be at least V_pk²·C/(I_max − √2·I_c)²; to keep f·I_pk ≤ (f·I)_max it must be at least
 V_pk/(2π·(f·I)_max). The added inductance is the larger requirement less the
 present L.
 """
@@ -80,10 +87,11 @@ class InrushResult:
     c_f: float  # C (isolated) or C_eq (back-to-back), wye-equivalent per phase
     l_h: float
     z0_ohm: float
+    transient_peak_a: float
+    steady_peak_a: float
     peak_a: float
     frequency_hz: float
     f_peak_product_a_hz: float
-    rated_peak_a: float
     peak_ratio: float
     source: str
     capability: SwitchCapability | None
@@ -99,10 +107,11 @@ class InrushResult:
             "c_f": self.c_f,
             "l_h": self.l_h,
             "z0_ohm": self.z0_ohm,
+            "transient_peak_a": self.transient_peak_a,
+            "steady_peak_a": self.steady_peak_a,
             "peak_a": self.peak_a,
             "frequency_hz": self.frequency_hz,
             "f_peak_product_a_hz": self.f_peak_product_a_hz,
-            "rated_peak_a": self.rated_peak_a,
             "peak_ratio": self.peak_ratio,
             "source": self.source,
             "capability": None if self.capability is None else self.capability.as_dict(),
@@ -121,33 +130,41 @@ def _v_peak(v_v: float, phases: int, s: Sheet, t: str) -> float:
     raise CalcError(f"phases must be 1 or 3, not {phases!r}")
 
 
-def _judge(case: str, name: str, v_pk: float, c: float, l: float, peak: float, f0: float,
+def _judge(case: str, name: str, v_pk: float, c: float, l: float, i_tr: float, f0: float,
            f_hz: float, c_switched: float, capability: SwitchCapability | None,
            s: Sheet, t: str) -> InrushResult:
-    rated_pk = v_pk * 2 * math.pi * f_hz * c_switched
-    fp = peak * f0
+    i_ss = s.calc("I_ss", "V_pk * 2 * pi * f_1 * C_s", "A",
+                  t + "steady-state peak current of the switched capacitors",
+                  V_pk=(v_pk, "V"), f_1=(f_hz, "Hz"), C_s=(c_switched, "F"))
+    peak = s.calc("I_pk,max", "I_pk + I_ss", "A", t + "inrush peak with the steady-state current",
+                  note="conservative: lossless, closing at the voltage peak",
+                  I_pk=(i_tr, "A"), I_ss=(i_ss, "A"))
+    fp = i_tr * f0
     passed = added = None
     rec = ""
     if capability is not None:
         ok_pk = peak <= capability.peak_a
         ok_fp = capability.f_peak_product_a_hz is None or fp <= capability.f_peak_product_a_hz
         passed = ok_pk and ok_fp
-        l_need = s.calc("L_req", "V_pk**2 * C / I_max**2", "H",
-                        t + "loop inductance that limits the peak to the device capability",
-                        V_pk=(v_pk, "V"), C=(c, "F"), I_max=(capability.peak_a, "A"))
-        if capability.f_peak_product_a_hz is not None:
-            l_fp = s.calc("L_req,fI", "V_pk / (2 * pi * fI_max)", "H",
-                          t + "loop inductance that limits f·I_pk to the device capability",
-                          V_pk=(v_pk, "V"), fI_max=(capability.f_peak_product_a_hz, "A*Hz"))
-            l_need = max(l_need, l_fp)
-        added = max(0.0, float(l_need) - l)
         dev = capability.name or "the switching device"
         if passed:
             rec = (f"peak {peak:.0f} A within {dev}'s {capability.peak_a:.0f} A"
                    + ("" if capability.f_peak_product_a_hz is None
                       else f"; f·I {fp:.3g} A·Hz within {capability.f_peak_product_a_hz:.3g} A·Hz"))
             added = 0.0
+        elif capability.peak_a <= i_ss:
+            rec = (f"{dev}'s {capability.peak_a:.0f} A is not above the steady-state peak "
+                   f"{i_ss:.0f} A: no inrush limiting can help; choose a device rated for the step")
         else:
+            l_need = s.calc("L_req", "V_pk**2 * C / (I_max - I_ss)**2", "H",
+                            t + "loop inductance that limits the peak to the device capability",
+                            V_pk=(v_pk, "V"), C=(c, "F"), I_max=(capability.peak_a, "A"),
+                            I_ss=(i_ss, "A"))
+            if capability.f_peak_product_a_hz is not None:
+                l_fp = s.calc("L_req,fI", "V_pk / (2 * pi * fI_max)", "H",
+                              t + "loop inductance that limits f·I_pk to the device capability",
+                              V_pk=(v_pk, "V"), fI_max=(capability.f_peak_product_a_hz, "A*Hz"))
+                l_need = max(l_need, l_fp)
             dl = s.calc("dL", "L_req - L", "H", t + "inductance to add per phase",
                         L_req=(float(l_need), "H"), L=(l, "H"))
             added = float(dl)
@@ -158,9 +175,9 @@ def _judge(case: str, name: str, v_pk: float, c: float, l: float, peak: float, f
         s.note(t + rec, title=t + "switching device check")
     return InrushResult(
         case=case, name=name, v_peak_v=float(v_pk), c_f=float(c), l_h=float(l),
-        z0_ohm=math.sqrt(l / c), peak_a=float(peak), frequency_hz=float(f0),
-        f_peak_product_a_hz=float(fp), rated_peak_a=float(rated_pk),
-        peak_ratio=float(peak / rated_pk), source=FORMULA_SOURCE, capability=capability,
+        z0_ohm=math.sqrt(l / c), transient_peak_a=float(i_tr), steady_peak_a=float(i_ss),
+        peak_a=float(peak), frequency_hz=float(f0),
+        f_peak_product_a_hz=float(fp), peak_ratio=float(peak / i_ss), source=FORMULA_SOURCE, capability=capability,
         passed=passed, added_inductance_h=added, recommendation=rec,
     )
 
