@@ -440,7 +440,8 @@ def bank_reactances(v_bus_v: float, q_bank_var: Any, detuning_p: float = 0.0) ->
     q = np.asarray(q_bank_var, dtype=float)
     with np.errstate(divide="ignore"):
         x_c = v_bus_v**2 / (q * (1.0 - detuning_p))
-    return x_c, detuning_p * x_c
+    x_l = np.where(np.isfinite(x_c), detuning_p * np.where(np.isfinite(x_c), x_c, 0.0), np.inf)
+    return x_c, x_l
 
 
 def bus_impedance(source: SourceImpedance, q_bank_var: Any, detuning_p: float = 0.0, h: Any = 1.0) -> np.ndarray:

@@ -138,7 +138,10 @@ def _sample_interval(t: np.ndarray) -> float:
         raise CalcError(f"the samples are not evenly spaced: the interval before sample {k + 2} is "
                         f"{dt[k]:.6g} s against a mean of {mean:.6g} s (more than {TIME_JITTER:.0%} apart); "
                         "resample the capture to a fixed rate")
-    return float(mean)
+    # The interval is the least-squares slope of t against the sample index: it averages out the
+    # rounding of written timestamps better than the end points alone.
+    k = np.arange(t.size, dtype=float) - 0.5 * (t.size - 1)
+    return float(np.dot(k, t - t.mean()) / np.dot(k, k))
 
 
 def _n_orders(fs: float, f: float) -> int:
@@ -317,7 +320,8 @@ def analyze_waveform(
     tau = (np.arange(m) * dt)  # evenly spaced grid at the mean interval
     f = _estimate_frequency(tau, v, fs, f_nominal_hz, 30)
     cycles = duration * f
-    k_used = int(math.floor(cycles + 1e-9))
+    # Whole cycles in the record, allowing half a sample short of the last one.
+    k_used = int(math.floor((m + 0.5) * f / fs))
     if k_used < 1:
         raise CalcError(f"the capture spans {cycles:.2f} cycles of the measured {f:.3f} Hz fundamental; "
                         "at least one whole cycle is needed")
