@@ -257,3 +257,41 @@ def check_transitions(checks_a, checks_b) -> list[Transition]:
         if name not in sa:
             out.append(Transition(name, None, st))
     return out
+
+
+# ---------------------------------------------------------------------------
+# two reports
+
+
+@dataclass(frozen=True)
+class ReportDiff:
+    """Value changes (outside the checks) and check status transitions between two results documents."""
+
+    changes: tuple[Change, ...]
+    transitions: tuple[Transition, ...]
+
+    @property
+    def empty(self) -> bool:
+        return not self.changes and not self.transitions
+
+    def lines(self) -> list[str]:
+        return [describe(t) for t in self.transitions] + [describe(c) for c in self.changes]
+
+    def as_dict(self) -> dict:
+        return {"changes": [c.as_dict() for c in self.changes],
+                "transitions": [t.as_dict() for t in self.transitions]}
+
+
+def diff_reports(a: Mapping[str, Any], b: Mapping[str, Any], checks_key: str = "checks",
+                 ignore: Iterable[str] = (), rel_tol: float = REL_TOL, abs_tol: float = 0.0) -> ReportDiff:
+    """Compare two results documents (e.g. two ``results.json``).
+
+    The checks under ``checks_key`` are reported as status transitions only
+    (their other fields, such as message text, follow from the values that
+    changed); top-level keys in ``ignore`` (e.g. ``"build"``) are left out.
+    """
+    skip = set(ignore) | {checks_key}
+    va = {k: v for k, v in a.items() if k not in skip}
+    vb = {k: v for k, v in b.items() if k not in skip}
+    return ReportDiff(tuple(diff_values(va, vb, rel_tol=rel_tol, abs_tol=abs_tol)),
+                      tuple(check_transitions(a.get(checks_key), b.get(checks_key))))

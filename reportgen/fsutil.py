@@ -51,6 +51,7 @@ while holding :class:`BuildLock` (the next build calls it first thing).
 
 from __future__ import annotations
 
+import contextlib
 import errno
 import json
 import os
@@ -59,7 +60,7 @@ import shutil
 import sys
 import time
 from pathlib import Path
-from typing import Callable
+from typing import Callable, Iterator
 
 from reportgen.errors import BuildError
 
@@ -319,6 +320,23 @@ def _settle(out: Path, jp: Path, on_warning: Callable[[str], None] | None) -> st
     _fsync_dir(out)
     jp.unlink(missing_ok=True)
     return final.name
+
+
+@contextlib.contextmanager
+def staged(final_dir: PathLike, *, durable: bool = True) -> Iterator[Path]:
+    """Write into a fresh staging folder; publish it as ``final_dir`` when the block ends normally.
+
+    >>> with staged(out / "plant-a") as stage:       # doctest: +SKIP
+    ...     (stage / "index.html").write_text(html)
+    On an exception the staging folder is removed and ``final_dir`` is untouched.
+    """
+    stage = new_staging_dir(final_dir)
+    try:
+        yield stage
+    except BaseException:
+        shutil.rmtree(stage, ignore_errors=True)
+        raise
+    publish_dir(stage, final_dir, durable=durable)
 
 
 def recover(out_dir: PathLike, on_warning: Callable[[str], None] | None = None) -> list[str]:

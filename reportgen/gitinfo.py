@@ -173,6 +173,19 @@ def folder_dirty(path: PathLike) -> bool:
     return bool(out)
 
 
+def source_info(path: PathLike) -> dict | None:
+    """For a report's "source" line: the folder's last commit plus ``dirty``; None outside git.
+
+    ``{"id", "short_id", "date", "subject", "author", "dirty"}``. A dirty
+    folder means the report was built from uncommitted files, which the
+    report should say next to the commit id.
+    """
+    c = folder_commit(path)
+    if c is None:
+        return None
+    return {**c.as_dict(), "dirty": folder_dirty(path)}
+
+
 def resolve_rev(path: PathLike, rev: str) -> str | None:
     """Full commit id that ``rev`` (a commit id, tag, branch, ``HEAD~2``...) names, or None."""
     if not rev or rev.startswith("-") or "\n" in rev or "\0" in rev:

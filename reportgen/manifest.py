@@ -140,6 +140,23 @@ def hash_inputs(files: Mapping[str, PathLike] | Iterable[PathLike], extra: Mappi
     return h.hexdigest()
 
 
+def folder_files(folder: PathLike, skip_hidden: bool = True) -> list[Path]:
+    """Regular files under ``folder``, sorted; names starting with "." (``.git``, editor files) skipped."""
+    base = Path(folder)
+    out: list[Path] = []
+    for dirpath, dirs, files in os.walk(base):
+        if skip_hidden:
+            dirs[:] = [d for d in dirs if not d.startswith(".")]
+        dirs.sort()
+        for f in sorted(files):
+            if skip_hidden and f.startswith("."):
+                continue
+            p = Path(dirpath) / f
+            if p.is_file() and not p.is_symlink():
+                out.append(p)
+    return sorted(out, key=lambda p: p.relative_to(base).as_posix())
+
+
 def output_hashes(folder: PathLike) -> dict[str, str]:
     """relative POSIX path -> sha256 of every regular file under ``folder`` (symlinks skipped)."""
     base = Path(folder)

@@ -112,3 +112,17 @@ def test_check_transitions_forms_and_kinds():
         check_transitions([{"status": "pass"}], [])
     assert Transition("x", "pass", "warn").as_dict() == {"name": "x", "before": "pass", "after": "warn",
                                                          "kind": "worse"}
+
+
+def test_diff_reports_separates_checks_and_ignores_build():
+    from reportgen.diffing import diff_reports
+
+    a = {"build": {"version": "0.1.0"}, "correction": {"q_installed_var": 150000.0, "pf_after": 0.951},
+         "checks": [{"id": "voltage_rise", "status": "pass", "message": "rise 1.1 %"}]}
+    b = {"build": {"version": "0.2.0"}, "correction": {"q_installed_var": 175000.0, "pf_after": 0.951},
+         "checks": [{"id": "voltage_rise", "status": "warn", "message": "rise 3.2 %"}]}
+    d = diff_reports(a, b, ignore=["build"])
+    assert d.lines() == ["voltage_rise: pass → warn", "correction.q_installed_var: 150000 → 175000"]
+    assert not d.empty
+    assert diff_reports(a, a).empty
+    assert d.as_dict()["transitions"][0]["kind"] == "worse"

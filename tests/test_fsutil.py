@@ -169,6 +169,19 @@ def test_publish_from_foreign_staging_folder(tmp_path, swap_mode):
     assert not st.exists()
 
 
+def test_staged_publishes_or_discards(tmp_path):
+    out = tmp_path / "site"
+    with fsutil.staged(out / "p") as st:
+        write_gen(st, 1)
+    assert read_gen(out / "p") == 1
+    with pytest.raises(RuntimeError):
+        with fsutil.staged(out / "p") as st:
+            write_gen(st, 2)
+            raise RuntimeError("render failed")
+    assert read_gen(out / "p") == 1  # untouched
+    assert_clean_state(out)
+
+
 def test_publish_rejects_nested_folders(tmp_path):
     final = tmp_path / "site" / "p"
     (final / "inner").mkdir(parents=True)

@@ -152,6 +152,15 @@ def test_read_list_and_materialize_earlier_revision(repo, tmp_path):
     assert "projects/plant-b/project.yaml" in gitinfo.list_at("HEAD", r)
 
 
+def test_source_info(repo):
+    r, ids = repo
+    a = r / "projects" / "plant-a"
+    info = gitinfo.source_info(a)
+    assert info["id"] == ids[4] and info["dirty"] is False and info["date"] == "2024-03-15T08:00:00Z"
+    (a / "loads.csv").write_text("changed\n")
+    assert gitinfo.source_info(a)["dirty"] is True
+
+
 def test_dirty_working_copy(repo):
     r, _ = repo
     a = r / "projects" / "plant-a"
@@ -186,6 +195,7 @@ def test_outside_a_repository_nothing_breaks(isolated_git):
     assert gitinfo.list_at("HEAD", loose) == []
     assert gitinfo.materialize("HEAD", loose, isolated_git / "m") is None
     assert gitinfo.repo_root(loose) is None
+    assert gitinfo.source_info(loose) is None
     assert gitinfo.folder_commit(isolated_git / "does" / "not" / "exist") is None
 
 

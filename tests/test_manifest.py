@@ -188,3 +188,11 @@ def test_output_hashes_skips_symlinks(tmp_path):
     _tree(tmp_path / "o", {"a.txt": "a"})
     (tmp_path / "o" / "l.txt").symlink_to(tmp_path / "o" / "a.txt")
     assert list(mf.output_hashes(tmp_path / "o")) == ["a.txt"]
+
+
+def test_folder_files_skips_hidden(tmp_path):
+    _tree(tmp_path / "p", {"project.yaml": "a", "data/b.csv": "b", ".hidden": "h", ".git/config": "c",
+                           "data/.swp": "s"})
+    assert [p.relative_to(tmp_path / "p").as_posix() for p in mf.folder_files(tmp_path / "p")] == [
+        "data/b.csv", "project.yaml"]
+    assert len(mf.folder_files(tmp_path / "p", skip_hidden=False)) == 5
