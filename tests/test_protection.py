@@ -297,3 +297,67 @@ def test_bad_inputs_raise_calc_error():
         ProtectionOptions(rules="iec", iec_sizing_factor=1.2)
     with pytest.raises(CalcError):
         protect_bank([], 480)
+
+
+def test_motor_capacitor_line_side_of_overload():
+    # NEC 460.8(B) and 460.9 (REFERENCES §3, secondary source): between controller and overload
+    # device the overload sees the motor current only, and the capacitor needs its own
+    # overcurrent protection.
+    m = motor_capacitor(40.0, 0.625, 0.95, 5.52e3, 240, phases=1, load_side_of_overload=False)
+    assert m.ocpd_required is True
+    assert m.overload_setting_basis_a == 40.0
+    m2 = motor_capacitor(40.0, 0.625, 0.95, 5.52e3, 240, phases=1)
+    assert m2.ocpd_required is False
+    assert m2.overload_setting_basis_a == pytest.approx(26.32, abs=0.01)
+
+
+def test_medium_voltage_is_refused():
+    # NEC Table 310.16 covers conductors rated up to 2000 V; IEC 60364 is low voltage.
+    with pytest.raises(CalcError, match="medium-voltage"):
+        protect_bank([BankStep("S1", CapacitorUnit(200e3, 4160, 60))], 4160)
+    with pytest.raises(CalcError):
+        protect_circuit(capacitor_currents(100e3, 1100), ProtectionOptions(rules="iec"))
+
+
+def test_summary_takes_bank_level_results():
+    from reportgen.calc.switching import bank_inrush
+
+    u = CapacitorUnit(25e3, 480, 60, name="U25")
+    v = CapacitorUnit(50e3, 480, 60, name="U50")
+    steps = [BankStep("S1", u, 2), BankStep("S2", v, 1)]
+    b = protect_bank(steps, 480)
+    ds = [discharge_check(u), discharge_check(v)]
+    inr = bank_inrush(steps, 480, s_sc_va=10e6)
+    summ = protection_summary(b.feeder, ds, inr)
+    # The 50 kvar unit has the larger C, so the smaller allowed R (governing).
+    assert summ["discharge"]["max_resistance_ohm"] == ds[1].max_resistance_ohm
+    assert summ["inrush"] == {"peak_a": inr.worst.peak_a, "frequency_hz": inr.worst.frequency_hz}
+    import json
+    json.dumps(b.as_dict())
+    json.dumps(summ)
+
+
+from hypothesis import given, settings, strategies as st  # noqa: E402
+
+
+@settings(max_examples=60, deadline=None)
+@given(req=st.floats(1.0, 2500.0), temp=st.sampled_from([60, 75, 90]),
+       mat=st.sampled_from(["cu", "al"]), amb=st.floats(0.0, 50.0), n=st.integers(1, 12))
+def test_chosen_conductor_is_smallest_adequate(req, temp, mat, amb, n):
+    # Property of the selection rule (no outside reference): the chosen single conductor
+    # carries the requirement and the next smaller size does not.
+    try:
+        c = select_conductor(req, material=mat, insulation_temp_c=temp, ambient_c=amb,
+                             bundled_count=n)
+    except CalcError:
+        return
+    assert c.ampacity_a >= req - 1e-9
+    tab = codes.ampacity_table("nec", mat, temp)
+    k = c.ambient_factor * c.bundling_factor
+    if c.sets == 1:
+        i = tab.sizes.index(c.size)
+        if i > 0:
+            assert tab.ampacity_a[i - 1] * k < req
+    else:
+        # The largest single size was not enough.
+        assert tab.ampacity_a[-1] * k < req

@@ -37,6 +37,9 @@ from reportgen.calc.errors import CalcError
 from reportgen.calc.sheet import Sheet
 
 CONNECTIONS = ("delta", "wye")
+#: highest system voltage the conductor and fuse tables cover: NEC Table 310.16 is for
+#: conductors rated up to 2000 V; IEC 60364 covers low voltage up to 1000 V a.c.
+CONDUCTOR_TABLE_MAX_V = {"nec": 2000.0, "iec": 1000.0}
 
 
 def _pos(name: str, x: float) -> float:
@@ -685,6 +688,13 @@ def protect_circuit(
     CircuitProtection
     """
     o = options or ProtectionOptions()
+    v_max = CONDUCTOR_TABLE_MAX_V[o.rules]
+    if currents.v_applied_v > v_max:
+        raise CalcError(
+            f"{name or 'circuit'}: {currents.v_applied_v:.0f} V is above the {v_max:.0f} V covered "
+            f"by the {o.rules} conductor and fuse tables used here; medium-voltage cables, fuses "
+            "and switchgear must be selected by an engineer from the applicable tables"
+        )
     s = sheet if sheet is not None else Sheet()
     t = f"{name}: " if name else ""
     i_b = currents.basis_a
@@ -850,6 +860,8 @@ class MotorCapacitorResult:
     capacitor_rated_a: float
     conductor_min_a: float
     disconnect_required: bool
+    ocpd_required: bool
+    overload_setting_basis_a: float
     q_no_load_limit_var: float | None
     q_within_limit: bool | None
     overload_note: str
@@ -864,6 +876,8 @@ class MotorCapacitorResult:
             "capacitor_rated_a": self.capacitor_rated_a,
             "conductor_min_a": self.conductor_min_a,
             "disconnect_required": self.disconnect_required,
+            "ocpd_required": self.ocpd_required,
+            "overload_setting_basis_a": self.overload_setting_basis_a,
             "q_no_load_limit_var": self.q_no_load_limit_var,
             "q_within_limit": self.q_within_limit,
             "overload_note": self.overload_note,
@@ -879,6 +893,7 @@ def motor_capacitor(
     v_v: float,
     *,
     phases: int = 3,
+    load_side_of_overload: bool = True,
     i_no_load_a: float | None = None,
     motor_conductor_ampacity_a: float | None = None,
     sheet: Sheet | None = None,
@@ -886,11 +901,15 @@ def motor_capacitor(
     """Line current and overload setting for a capacitor switched with its motor.
 
     The capacitor sits on the load side of the motor controller (NEC 460.8(C)
-    exception: no separate disconnect). When it is also on the load side of
-    the overload device, the overload is set on the improved power factor
-    current (NEC 460.9): I_after = I_before · PF_before / PF_after (same real
-    power). Its conductors need ≥ 135 % of the capacitor's rated current and
-    ≥ 1/3 of the motor circuit conductor ampacity (460.8(A)).
+    exception: no separate disconnect). On the load side of the overload
+    device too (``load_side_of_overload``), the overload sees the improved
+    current and is set on it (NEC 460.9): I_after = I_before · PF_before /
+    PF_after (same real power), and no separate overcurrent device is needed
+    (460.8(B) exception). Between the controller and the overload device, the
+    overload sees the motor's own current (set on I_before) and the capacitor
+    needs its own overcurrent protection. Either way its conductors need
+    ≥ 135 % of the capacitor's rated current and ≥ 1/3 of the motor circuit
+    conductor ampacity (460.8(A)).
 
     Parameters
     ----------
@@ -903,6 +922,8 @@ def motor_capacitor(
     v_v : float
         Voltage (line-to-line for three phase), V.
     phases : {1, 3}
+    load_side_of_overload : bool
+        The capacitor connects between the overload device and the motor.
     i_no_load_a : float, optional
         Motor no-load current; checks the capacitor against the no-load
         magnetising kvar √3·V·I0 (common practice: ≤ 90 % of it, so the motor
@@ -930,6 +951,12 @@ def motor_capacitor(
     i_min = s.calc("I_min", "1.35 * I_r", "A", "minimum capacitor conductor ampacity",
                    note="NEC 460.8(A)", I_r=(c.line_rated_a, "A"))
     notes = ["NEC 460.8(C) exception: no separate disconnect on the load side of the motor controller"]
+    if load_side_of_overload:
+        notes.append("NEC 460.8(B) exception: no separate overcurrent device on the load side of "
+                     "the motor overload device")
+    else:
+        notes.append("NEC 460.8(B): the capacitor is on the line side of the overload device and "
+                     "needs its own overcurrent protection in each ungrounded conductor")
     if motor_conductor_ampacity_a is not None:
         third = s.calc("I_min,motor", "A_m / 3", "A", "one third of motor circuit conductor ampacity",
                        note="NEC 460.8(A)", A_m=(_pos("motor_conductor_ampacity_a",
@@ -950,13 +977,20 @@ def motor_capacitor(
                 f"{q_lim:.0f} var: risk of self-excitation and overvoltage when the motor is "
                 "disconnected while turning; use the motor maker's maximum capacitor rating"
             )
-    ol = (f"Set the motor overload on the improved-power-factor current {ia:.1f} A "
-          f"(not the nameplate {ib:.1f} A), applying the usual service-factor and "
-          "temperature-rise rules of NEC 430.32 (NEC 460.9)")
+    if load_side_of_overload:
+        basis = float(ia)
+        ol = (f"Set the motor overload on the improved-power-factor current {ia:.1f} A "
+              f"(not the nameplate {ib:.1f} A), applying the usual service-factor and "
+              "temperature-rise rules of NEC 430.32 (NEC 460.9)")
+    else:
+        basis = ib
+        ol = (f"The overload device sees the motor current only: set it on {ib:.1f} A per "
+              "NEC 430.32 as without the capacitor")
     s.note(ol, title="motor overload setting")
     return MotorCapacitorResult(
         i_before_a=ib, i_after_a=float(ia), pf_before=float(pf_before), pf_after=float(pf_after),
         capacitor_rated_a=c.line_rated_a, conductor_min_a=float(i_min), disconnect_required=False,
+        ocpd_required=not load_side_of_overload, overload_setting_basis_a=basis,
         q_no_load_limit_var=None if q_lim is None else float(q_lim), q_within_limit=within,
         overload_note=ol, notes=tuple(notes),
     )
@@ -968,17 +1002,21 @@ def protection_summary(feeder: CircuitProtection, discharge=None, inrush=None) -
     Parameters
     ----------
     feeder : CircuitProtection
-    discharge : DischargeResult, optional
-        From :func:`reportgen.calc.discharge.discharge_check`.
-    inrush : InrushResult, optional
-        From :mod:`reportgen.calc.switching` (usually the worst case).
+        Usually ``protect_bank(...).feeder``.
+    discharge : DischargeResult or sequence of them, optional
+        From :func:`reportgen.calc.discharge.discharge_check`. For several
+        units the governing values are reported: the smallest
+        ``max_resistance_ohm`` and the longest ``seconds_to_limit``.
+    inrush : InrushResult or BankInrush, optional
+        From :mod:`reportgen.calc.switching`; for a BankInrush its worst case.
 
     Returns
     -------
     dict
-        ``{rated_current_a, conductor: {size, ampacity_a, sets, material},
-        fuse_a, disconnect_a, discharge: {max_resistance_ohm,
-        seconds_to_limit} | None, inrush: {peak_a, frequency_hz} | None}``.
+        ``{rated_current_a, basis_current_a, conductor: {size, ampacity_a,
+        sets, material}, fuse_a, disconnect_a, discharge:
+        {max_resistance_ohm, seconds_to_limit} | None, inrush: {peak_a,
+        frequency_hz} | None}``.
     """
     out = {
         "rated_current_a": feeder.rated_current_a,
@@ -995,10 +1033,13 @@ def protection_summary(feeder: CircuitProtection, discharge=None, inrush=None) -
         "inrush": None,
     }
     if discharge is not None:
-        out["discharge"] = {
-            "max_resistance_ohm": discharge.max_resistance_ohm,
-            "seconds_to_limit": discharge.seconds_to_limit,
-        }
+        ds = list(discharge) if isinstance(discharge, (list, tuple)) else [discharge]
+        if ds:
+            out["discharge"] = {
+                "max_resistance_ohm": min(d.max_resistance_ohm for d in ds),
+                "seconds_to_limit": max(d.seconds_to_limit for d in ds),
+            }
     if inrush is not None:
-        out["inrush"] = {"peak_a": inrush.peak_a, "frequency_hz": inrush.frequency_hz}
+        w = getattr(inrush, "worst", inrush)
+        out["inrush"] = {"peak_a": w.peak_a, "frequency_hz": w.frequency_hz}
     return out
