@@ -171,6 +171,14 @@ def test_bus_voltage_resistive_load_closed_form():
     assert bus_voltage(src, complex(p, 0), 0.0).v_before_pu == pytest.approx(v, abs=1e-12)
 
 
+def test_bus_voltage_heavy_load_stays_on_upper_branch():
+    # Hand calculation: R*P = 0.24 pu -> roots 0.6 and 0.4; Newton from a flat start must give 0.6.
+    src = SourceImpedance(480.0, 0.002, 0.0, 3)
+    r_pu = 0.002 / (480.0**2 / src.s_sc_va)
+    p = 0.24 / r_pu * src.s_sc_va
+    assert bus_voltage(src, complex(p, 0), 0.0).v_before_pu == pytest.approx(0.6, abs=1e-10)
+
+
 def test_voltage_collapse_raises_with_iterations():
     src = source_from_bus(480.0, 10e6, 5.0)
     with pytest.raises(CalcError, match=r"after \d+ iterations"):

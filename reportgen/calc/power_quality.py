@@ -781,6 +781,7 @@ class HarmonicDistortion:
     limits: VoltageDistortionLimits
     status_before: str
     status_after: str
+    """'pass', 'warn' (above 95 % of a limit, our margin) or 'fail' against IEEE 519 Table 1."""
 
     def as_dict(self) -> dict[str, Any]:
         return {
@@ -858,8 +859,8 @@ def harmonic_distortion(
         sheet.note(f"Harmonic voltages V_h = I_h*|Z(h)| on the phase-voltage basis (V_1 = {v1a:.1f} V after): "
                    f"THD {thd_b:.2f} % without the bank, {thd_a:.2f} % with it; largest single order "
                    f"{ind_b:.2f} % / {ind_a:.2f} %.", "Voltage distortion")
-    st = lambda ind, thd: max((_limit_status(ind, lim.individual_pct, 1.0),  # noqa: E731
-                               _limit_status(thd, lim.thd_pct, 1.0)), key=["pass", "warn", "fail"].index)
+    st = lambda ind, thd: max((_limit_status(ind, lim.individual_pct, WARN_FRACTION),  # noqa: E731
+                               _limit_status(thd, lim.thd_pct, WARN_FRACTION)), key=["pass", "warn", "fail"].index)
     return HarmonicDistortion(orders, ih, vb, va, v1b, v1a, thd_b, thd_a, ind_b, ind_a, lim,
                               st(ind_b, thd_b), st(ind_a, thd_a))
 
@@ -1403,8 +1404,9 @@ def assess(
         Capacitor rated voltage; default: bus nominal, or with a reactor the next
         common LV rating above ``V/(1 - p)``.
     propose : bool
-        When the resonance is flagged and the bank has no reactor, compute a
-        detuning proposal and the whole assessment again with it (``proposed``).
+        When the resonance (of the whole bank or of any cumulative step) is
+        flagged and the bank has no reactor, compute a detuning proposal and the
+        whole assessment again with it (``proposed``).
     sheet : Sheet, optional
         Records the key steps.
 
@@ -1450,7 +1452,8 @@ def assess(
             v_cap_rated_v = detuned.v_cap_rated_v
         duty = capacitor_duty(source, i_h, q_bank_var, p, bus.v_after_pu, v_cap_rated_v, sheet=sh)
     proposal = proposed = None
-    if propose and near and p == 0 and q_bank_var > 0:
+    flagged = bool(near) or (steps is not None and any(steps.near_order))
+    if propose and flagged and p == 0 and q_bank_var > 0:
         proposal = propose_detuning(i_h, sheet=sh)
         proposed = assess(source, loads, q_bank_var, f_hz, proposal.detuning_p, step_q_var, None, False, None)
     return PowerQuality(
