@@ -441,3 +441,42 @@ def test_assess_without_bank():
     assert d["resonance_order"] is None and d["capacitor_duty"] is None
     assert d["v_before_pu"] == d["v_after_pu"]
     assert d["thd_v_before_pct"] == pytest.approx(d["thd_v_after_pct"])
+
+
+def test_assess_detuned_and_step_flag():
+    src = src_480()
+    loads = [BusLoad(600e3 + 450e3j, {5: 25.0, 7: 10.0})]
+    # 4 x 76 kvar (S_sc = 23.6 MVA): cumulative steps resonate near 17.6, 12.5, 10.2 and 8.8: the 2nd
+    # and 3rd steps lie within 10 % of the 13th and 11th while the whole bank is clear, so the step
+    # flags alone trigger the proposal.
+    pq = assess(src, loads, 304e3, F1, step_q_var=[76e3] * 4)
+    assert not pq.resonance_flagged
+    assert pq.steps.near_order == (0, 13, 11, 0)
+    assert pq.proposal is not None and pq.proposal.detuning_p == 0.07
+    # an explicit 7 % detuning: the resonance moves below the tuning order, the capacitor is rated 525 V
+    pd = assess(src, loads, 240e3, F1, detuning_p=0.07)
+    assert pd.resonance_order < tuning_order(0.07)
+    assert pd.detuned.v_cap_rated_v == 525.0 and pd.proposal is None
+    # fundamental capacitor voltage V_bus/(1 - p) on 525 V; harmonics add a little rms on top
+    fund = pd.v_after_pu * 480.0 / 0.93 / 525.0
+    assert fund < pd.capacitor_duty.v_rms_pu < 1.02 * fund
+
+
+def test_assess_single_phase():
+    # Single phase: Z = V^2/S is the loop impedance, I1 = S/V (hand calculation for the 5th):
+    # 240 V, 2.4 MVA -> Z = 0.024 ohm; 24 kVA load at 20 % 5th -> I5 = 20 A; V5 = 20*|R + j5X|.
+    src = source_from_bus(240.0, 2.4e6, 4.0, phases=1)
+    pq = assess(src, [BusLoad(19.2e3 + 14.4e3j, {5: 20.0})], 0.0, F1)
+    v5 = 20.0 * abs(src.at_order(5))
+    assert pq.thd_v_before_pct == pytest.approx(v5 / (240.0 * pq.v_before_pu) * 100, rel=1e-12)
+
+
+def test_ieee519_status():
+    src = source_from_bus(480.0, 20e6, 6.0)
+    i = np.zeros(51)
+    i[1] = 1000.0
+    v1 = 480 / math.sqrt(3)
+    z5 = abs(src.at_order(5))
+    for pct, status in ((4.0, "pass"), (4.9, "warn"), (5.5, "fail")):  # 5 % individual limit at <= 1 kV
+        i[5] = pct / 100 * v1 / z5
+        assert harmonic_distortion(src, i, 0.0).status_before == status

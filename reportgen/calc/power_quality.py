@@ -362,6 +362,18 @@ def voltage_rise_estimate_pct(s_sc_va: Any, q_bank_var: Any) -> Any:
     """Handbook voltage rise ``Q_bank/S_sc*100`` in %, vectorised.
 
     IEEE Std 1036 guide formula (from memory; also USDA RUS Bulletin 1724D-112).
+
+    Parameters
+    ----------
+    s_sc_va : float or array
+        Short-circuit power at the bus, VA.
+    q_bank_var : float or array
+        Bank reactive power, var.
+
+    Returns
+    -------
+    ndarray
+        Voltage rise in % (0-d array for scalar input).
     """
     return np.asarray(q_bank_var, dtype=float) / np.asarray(s_sc_va, dtype=float) * 100.0
 
@@ -434,7 +446,20 @@ def bank_reactances(v_bus_v: float, q_bank_var: Any, detuning_p: float = 0.0) ->
     """Per-phase capacitor and reactor reactances ``(X_C, X_L)`` at the fundamental.
 
     ``X_C - X_L = V**2/Q`` (the bank delivers ``Q`` at ``V``), ``X_L = p*X_C``.
-    Vectorised over ``q_bank_var``; a zero bank gives infinite reactances.
+
+    Parameters
+    ----------
+    v_bus_v : float
+        Nominal bus voltage, V.
+    q_bank_var : float or array
+        Bank delivered var at ``v_bus_v``; a zero bank gives infinite reactances.
+    detuning_p : float
+        Reactor relative impedance ``X_L/X_C`` (0 without reactor).
+
+    Returns
+    -------
+    (ndarray, ndarray)
+        ``X_C`` and ``X_L`` in ohm, wye-equivalent per phase.
     """
     _check_p(detuning_p)
     q = np.asarray(q_bank_var, dtype=float)
@@ -448,8 +473,23 @@ def bus_impedance(source: SourceImpedance, q_bank_var: Any, detuning_p: float = 
     """Complex impedance seen from the bus at order(s) ``h``: source in parallel with the bank.
 
     ``Z(h) = (R + j*h*X_s) || (j*h*X_L - j*X_C/h)``; loads are not counted as
-    damping (conservative). Broadcasts ``q_bank_var`` against ``h``; a zero bank
-    returns the source impedance.
+    damping (conservative).
+
+    Parameters
+    ----------
+    source : SourceImpedance
+    q_bank_var : float or array
+        Bank delivered var at nominal voltage (broadcast against ``h``); 0 gives
+        the source impedance alone.
+    detuning_p : float
+        Reactor relative impedance (0 without reactor).
+    h : float or array
+        Harmonic order(s), h = f/f_1.
+
+    Returns
+    -------
+    ndarray of complex
+        Impedance in ohm, per phase.
     """
     h = np.asarray(h, dtype=float)
     zs = source.at_order(h)
@@ -465,7 +505,19 @@ def resonance_order_estimate(s_sc_va: Any, q_bank_var: Any, sheet: Sheet | None 
     """Parallel resonance order ``h_r = sqrt(S_sc/Q_bank)``, vectorised.
 
     IEEE Std 1036 guide formula (from memory); ignores any detuning reactor.
-    A scalar call records the step in ``sheet``.
+
+    Parameters
+    ----------
+    s_sc_va : float or array
+        Short-circuit power at the bus, VA.
+    q_bank_var : float or array
+        Bank reactive power, var (0 gives inf).
+    sheet : Sheet, optional
+        A scalar call records the step.
+
+    Returns
+    -------
+    float or ndarray
     """
     s = np.asarray(s_sc_va, dtype=float)
     q = np.asarray(q_bank_var, dtype=float)
@@ -504,7 +556,8 @@ def resonance_order(source: SourceImpedance, q_bank_var: Any, detuning_p: float 
     """
     x_c, x_l = bank_reactances(source.v_bus_v, q_bank_var, detuning_p)
     r, xs = source.r_ohm, source.x_ohm
-    if sheet is not None and np.ndim(x_c) == 0 and math.isfinite(float(x_c)):
+    if (sheet is not None and np.ndim(x_c) == 0 and math.isfinite(float(x_c))
+            and float(x_c) - r * r / xs > 0):
         return sheet.calc("h_r", "sqrt((X_C - R_s**2 / X_s) / (X_s + X_L))", "", "Parallel resonance order",
                           "where the bus impedance is purely resistive",
                           X_C=(float(x_c), "ohm"), R_s=(r, "ohm"), X_s=(xs, "ohm"), X_L=(float(x_l), "ohm"))
@@ -519,9 +572,22 @@ def near_harmonic(h_r: Any, load_orders: Sequence[int] = (), band: float = RESON
                   default_orders: Sequence[int] = DEFAULT_ORDERS) -> Any:
     """The harmonic order a resonance lies within ``band`` of, or 0 when none, vectorised.
 
-    Checked against the orders the loads carry and ``default_orders``
-    (5, 7, 11, 13). ``|h_r - n| <= band*n`` flags order n; the nearest such
-    order is returned. Non-finite ``h_r`` gives 0.
+    ``|h_r - n| <= band*n`` flags order n; the nearest such order is returned.
+
+    Parameters
+    ----------
+    h_r : float or array
+        Resonance order(s); non-finite values give 0.
+    load_orders : sequence of int
+        Orders the loads carry.
+    band : float
+        Relative band (0.10: within 10 %, common practice).
+    default_orders : sequence of int
+        Always checked (5, 7, 11, 13).
+
+    Returns
+    -------
+    int or ndarray of int
     """
     orders = np.array(sorted(set(int(o) for o in load_orders) | set(int(o) for o in default_orders)), dtype=float)
     h = np.asarray(h_r, dtype=float)
@@ -701,7 +767,24 @@ def harmonic_currents(loads: Sequence[BusLoad], v_bus_v: float, phases: int = 3,
     Each load's fundamental current is ``|S|/(sqrt(3)*V)`` on 3 phases or
     ``|S|/V`` on 1 phase; its order-h current is that times ``pct/100``. Currents
     of the same order add arithmetically (phase angles unknown: conservative).
-    Index 1 holds the total fundamental current magnitude sum.
+    Every order, triplens included, is applied to the per-phase circuit: on a
+    3-wire system or with a delta bank the zero-sequence triplens would in
+    fact not flow there, so this overstates them (conservative).
+
+    Parameters
+    ----------
+    loads : sequence of BusLoad
+    v_bus_v : float
+        Bus voltage, used for loads without their own ``v_v``.
+    phases : int
+        System phases, used for loads without their own ``phases``.
+    h_max : int
+        Highest order (50).
+
+    Returns
+    -------
+    ndarray
+        Length ``h_max + 1``; index 1 holds the sum of the loads' fundamental currents.
     """
     out = np.zeros(h_max + 1)
     for ld in loads:
@@ -1008,7 +1091,17 @@ def _next_rated_voltage(v: float, ratings: Sequence[float] = COMMON_LV_CAPACITOR
 
 
 def tuning_order(detuning_p: Any) -> Any:
-    """Series tuning order ``1/sqrt(p)`` of a detuned bank, vectorised."""
+    """Series tuning order ``1/sqrt(p)`` of a detuned bank, vectorised.
+
+    Parameters
+    ----------
+    detuning_p : float or array
+        Reactor relative impedance ``X_L/X_C`` at the fundamental.
+
+    Returns
+    -------
+    float or ndarray
+    """
     p = np.asarray(detuning_p, dtype=float)
     with np.errstate(divide="ignore"):
         h = 1.0 / np.sqrt(p)
@@ -1018,7 +1111,21 @@ def tuning_order(detuning_p: Any) -> Any:
 def detuned_delivered_var(q_cap_rated_var: float, v_cap_rated_v: float, v_bus_v: float, detuning_p: float) -> float:
     """Fundamental var a detuned bank delivers at ``v_bus_v``: ``Q_r*(V/V_r)**2/(1 - p)``.
 
-    ``q_cap_rated_var`` is the capacitor's nameplate var at its rated voltage ``v_cap_rated_v``.
+    Parameters
+    ----------
+    q_cap_rated_var : float
+        Capacitor nameplate var at its rated voltage.
+    v_cap_rated_v : float
+        Capacitor rated voltage, V.
+    v_bus_v : float
+        Bus voltage, V.
+    detuning_p : float
+        Reactor relative impedance ``X_L/X_C``.
+
+    Returns
+    -------
+    float
+        Delivered var (use it as ``q_bank_var`` elsewhere in this module).
     """
     _check_p(detuning_p)
     return float(q_cap_rated_var * (v_bus_v / v_cap_rated_v) ** 2 / (1.0 - detuning_p))
