@@ -350,7 +350,7 @@ def profile_losses(
             raise CalcError("a feeder resistance was given without the voltage")
         feeder = feeder_loss_reduction(feeder_r_ohm, v_v, p, qb, qa, dt, phases=phases, sheet=sheet)
     tx = None
-    sb, sa = np.hypot(p, qb), np.hypot(p, qa)
+    sb, sa = np.sqrt(p * p + qb * qb), np.sqrt(p * p + qa * qa)
     if transformer_load_loss_w is not None:
         if transformer_s_va is None:
             raise CalcError("a transformer load loss was given without the transformer rating")

@@ -155,7 +155,7 @@ def power_factor(p_w: Any, q_var: Any) -> np.ndarray:
     """Magnitude of the power factor ``|P| / S`` per interval (1 where S = 0)."""
     p = np.atleast_1d(np.asarray(p_w, dtype=float))
     q = np.atleast_1d(np.asarray(q_var, dtype=float))
-    s = np.hypot(p, q)
+    s = np.sqrt(p * p + q * q)
     with np.errstate(invalid="ignore", divide="ignore"):
         pf = np.abs(p) / s
     pf[s == 0.0] = 1.0
@@ -287,7 +287,10 @@ def interval_info(
     if interval_s is None:
         if n < 2:
             raise CalcError("one sample: the interval length cannot be detected; give it")
-        dr = np.round(d, 3)
+        if d.min() == d.max():
+            dr = d[:1]  # evenly spaced: the one step is the interval
+        else:
+            dr = np.round(d, 3)
         med = float(np.median(dr))
         if np.count_nonzero(dr == med) * 2 > len(dr):
             interval_s = med  # more than half the steps: it is the most common one
@@ -782,7 +785,7 @@ def _finish(
     e_met = float(pabs[met].sum())
     hours = n * h
     e_p, e_q, e_qa = float(p.sum() * h), float(q.sum() * h), float(qa.sum() * h)
-    s_after = np.hypot(p, qa)
+    s_after = np.sqrt(p * p + qa * qa)
     with np.errstate(invalid="ignore", divide="ignore"):
         pf_after = pabs / s_after
     pf_after[s_after == 0.0] = 1.0
@@ -817,7 +820,7 @@ def _finish(
         delivered_varh=float(qb.sum() * h),
         pf_before_average=e_p / math.hypot(e_p, e_q) if (e_p or e_q) else 1.0,
         pf_after_average=e_p / math.hypot(e_p, e_qa) if (e_p or e_qa) else 1.0,
-        s_before_peak_va=float(np.hypot(p, q).max()),
+        s_before_peak_va=float(np.sqrt(p * p + q * q).max()),
         s_after_peak_va=float(s_after.max()),
     )
     if sheet is not None:
@@ -916,11 +919,19 @@ def simulate(
     q_allow = np.abs(p) * kt
     need = q - q_allow
     cap = q + q_allow if not never_leading else q
-    i_need = np.searchsorted(levels, need, side="left")
-    i_cap = np.searchsorted(levels, cap, side="right") - 1
-    idx = np.minimum(np.minimum(i_need, len(levels) - 1), i_cap)
-    np.maximum(idx, 0, out=idx)
-    lv = levels[idx]
+    if bank.kind == "custom":
+        i_need = np.searchsorted(levels, need, side="left")
+        i_cap = np.searchsorted(levels, cap, side="right") - 1
+        idx = np.minimum(np.minimum(i_need, len(levels) - 1), i_cap)
+        np.maximum(idx, 0, out=idx)
+        lv = levels[idx]
+    else:
+        # Levels are k * step_var: integer division with exact corrections gives the
+        # same choice as a search of the level list, faster.
+        b = bank.step_var
+        idx = np.minimum(_int_ceil_div(need, b), _int_floor_div(cap, b))
+        np.clip(idx, 0, len(levels) - 1, out=idx)
+        lv = idx * b
     met = (lv >= need) & (lv <= q + q_allow)
     return _finish(bank, target_pf, never_leading, info.interval_s, t_s, p, q, levels, masks, idx, met, sheet)
 
