@@ -94,6 +94,15 @@ def test_off_nominal_frequency_non_integer_samples_per_cycle():
     check_exact(r, rel=1e-3, f=59.93)
 
 
+def test_long_capture_is_truncated(monkeypatch):
+    import reportgen.calc.waveform as w
+
+    monkeypatch.setattr(w, "MAX_SAMPLES", 3000)
+    r = analyze_waveform(*synth(cycles=40.0), 60.0)
+    assert (r.samples_used, r.samples_total, r.cycles_used) == (3000, 4800, 25)
+    check_exact(r)
+
+
 def test_one_cycle_is_enough():
     r = analyze_waveform(*synth(cycles=1.0), 60.0)
     check_exact(r)

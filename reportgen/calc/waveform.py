@@ -58,13 +58,16 @@ class WaveformAnalysis:
     """Result of :func:`analyze_waveform` (SI; rms values; phases in rad).
 
     Spectrum arrays are indexed by ``orders`` (1..max_order); phases are those
-    of ``cos(k*w*(t - t0) + phase)`` with ``t0`` the first sample.
+    of ``cos(k*w*(t - t0) + phase)`` with ``t0`` the first sample. Powers are
+    those of the captured channel pair: for one phase of a three-phase load
+    (line-to-neutral voltage and line current) multiply P, Q by 3.
     """
 
     f_hz: float
     cycles: float
     cycles_used: int
     samples_used: int
+    samples_total: int
     fs_hz: float
     max_order: int
     v_rms_v: float
@@ -357,11 +360,15 @@ def analyze_waveform(
     thd_v = float(np.sqrt(np.sum(vh[1:] ** 2)) / vh[0] * 100.0)
     thd_i = float(np.sqrt(np.sum(ih[1:] ** 2)) / ih[0] * 100.0)
     if sheet is not None:
+        if m < m_total:
+            sheet.note(f"Only the first {m} of {m_total} samples were analysed (limit of the analysis).",
+                       "Waveform analysis")
         sheet.note(f"Capture: {m} samples at {fs:g} Hz, {cycles:.2f} cycles of {f:.4f} Hz "
                    f"(least-squares harmonic fit to order {n}); THD voltage {thd_v:.2f} %, current {thd_i:.2f} %.",
                    "Waveform analysis")
     return WaveformAnalysis(
-        f_hz=float(f), cycles=float(cycles), cycles_used=k_used, samples_used=int(m), fs_hz=float(fs),
+        f_hz=float(f), cycles=float(cycles), cycles_used=k_used, samples_used=int(m),
+        samples_total=int(m_total), fs_hz=float(fs),
         max_order=int(n), v_rms_v=v_rms, i_rms_a=i_rms, p_w=p, s_va=float(s), true_pf=float(true_pf),
         displacement_pf=float(dpf), p1_w=p1, q1_var=q1, thd_v_pct=thd_v, thd_i_pct=thd_i,
         v_dc_v=float(c0[0]), i_dc_a=float(c0[1]), orders=np.arange(1, n + 1), v_h_v=vh, v_h_phase_rad=vph,
