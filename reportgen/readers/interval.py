@@ -31,6 +31,7 @@ import os
 import re
 import warnings
 from dataclasses import dataclass
+from operator import itemgetter
 from typing import Any
 
 import numpy as np
@@ -132,14 +133,23 @@ def open_csv_rows(path: str | os.PathLike, display_name: str) -> tuple[list[str]
                 all_lines.append(reader.line_num)
     except csv.Error as exc:
         raise InputError([Problem(display_name, 1, 1, f"bad CSV: {exc}")]) from None
-    keep = [i for i, r in enumerate(all_rows) if r and (len(r) > 1 or r[0].strip())]
+    while all_rows and not all_rows[-1]:
+        all_rows.pop()
+    if all_rows and min(map(len, all_rows)) > 1:
+        keep = range(len(all_rows))  # no blank lines: keep every row
+    else:
+        keep = [i for i, r in enumerate(all_rows) if r and (len(r) > 1 or r[0].strip())]
     header: list[str] | None = None
     rows: list[list[str]] = []
     lines: list[int] = []
     if keep:
         header = all_rows[keep[0]]
-        rows = [all_rows[i] for i in keep[1:]]
-        lines = [i + 1 for i in keep[1:]] if all_lines is None else [all_lines[i] for i in keep[1:]]
+        if isinstance(keep, range):
+            rows = all_rows[1:]
+            lines = list(range(2, len(all_rows) + 1)) if all_lines is None else all_lines[1:]
+        else:
+            rows = [all_rows[i] for i in keep[1:]]
+            lines = [i + 1 for i in keep[1:]] if all_lines is None else [all_lines[i] for i in keep[1:]]
         if len(rows) > MAX_ROWS:
             raise InputError([Problem(
                 display_name, lines[MAX_ROWS], 1,
@@ -343,14 +353,14 @@ def read_interval_csv(
     need = max(ct, cp, cq)
     parsed = None
     if rows and min(map(len, rows)) > need:
-        cols = list(zip(*rows))
-        t64 = _fast_datetimes(list(cols[ct]))
+        t64 = _fast_datetimes(list(map(itemgetter(ct), rows)))
         if t64 is not None:
             try:
-                pa = np.array(cols[cp], dtype=float)
-                qa = np.array(cols[cq], dtype=float)
+                pa = np.array(list(map(itemgetter(cp), rows)), dtype=float)
+                q_raw = list(map(itemgetter(cq), rows))
+                qa = np.array(q_raw, dtype=float)
                 if np.all(np.isfinite(pa)) and np.all(np.isfinite(qa)):
-                    parsed = (t64, pa, qa, lines, [], list(cols[cq]))
+                    parsed = (t64, pa, qa, lines, [], q_raw)
             except ValueError:
                 pass
     if parsed is None:
