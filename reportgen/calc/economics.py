@@ -19,7 +19,6 @@ in the tariff currency as plain floats. Pure: standard library and NumPy.
 
 from __future__ import annotations
 
-import math
 from dataclasses import dataclass
 from typing import Any, Sequence
 

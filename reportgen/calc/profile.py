@@ -56,7 +56,7 @@ from __future__ import annotations
 
 import itertools
 import math
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 from typing import Any, Callable, Sequence
 
 import numpy as np
@@ -182,10 +182,6 @@ def _arrays(t: Any, p_w: Any, q_var: Any) -> tuple[np.ndarray, np.ndarray, np.nd
     if not (np.all(np.isfinite(p)) and np.all(np.isfinite(q))):
         raise CalcError("P or Q holds a value that is not a finite number")
     return t_s, p, q
-
-
-def _float(x: Any) -> float:
-    return float(x)
 
 
 # --------------------------------------------------------------------------- intervals
