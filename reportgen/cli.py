@@ -41,7 +41,8 @@ def cmd_calc(args) -> int:
     c = data["correction"]
     out += ["", f"target PF {c['target_pf']:.3f}: {kvar(c['q_required_var'])} needed, "
                 f"{kvar(c['q_installed_var'])} installed "
-                + ("(" + ", ".join(f"{u['count']} x {kvar(u['q_rated_var'])}" for u in c["units"]) + ")"
+                + ("(" + ", ".join(f"{u['count']} x " + (qty(u["c_f"], "F") if u.get("c_f") else kvar(u["q_rated_var"]))
+                               for u in c["units"]) + ")"
                    if c["units"] else ""),
             f"after: PF {pf(c['pf_after'], c['leading_after'])}, S {qty(c['s_after_va'], 'VA')}, "
             f"I {qty(c['current_after_a'], 'A')}, feeder loss -{c['loss_reduction_fraction'] * 100:.1f} %", ""]

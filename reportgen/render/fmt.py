@@ -79,7 +79,8 @@ def cplx(z: complex, unit: str, sig: int = 4) -> str:
 
 
 def kvar(q_var: float, sig: int = 4) -> str:
-    return f"{num(q_var / 1e3, sig)}\u00a0kvar"
+    """Reactive power in the trade's unit: kvar, or var / Mvar where those read better."""
+    return qty(q_var, "var", sig)
 
 
 def pf(x: float, leading: bool | None = None) -> str:
