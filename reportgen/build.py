@@ -76,6 +76,8 @@ def render_project(project: Project, stage: Path, options: Options) -> "object":
                                            d.sizing.q_installed_var),
         "phasors": figures.phasor_diagram(d.phasors, d.phases),
     }
+    for key, make in d.figures.items():
+        svgs[key] = make(d)
     fig_paths = {}
     for key, svg in svgs.items():
         (fig_dir / f"{key}.svg").write_text(svg, encoding="utf-8")

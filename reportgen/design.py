@@ -53,6 +53,16 @@ class Design:
     sheets: list[Sheet] = field(default_factory=list)
     bom: list[dict] = field(default_factory=list)
     units_default: bool = False
+    #: results that feature stages add, by JSON key (e.g. "power_quality"); SI, JSON-ready
+    json: dict = field(default_factory=dict)
+    #: result objects of feature stages, by name, for templates and figures
+    parts: dict = field(default_factory=dict)
+    #: report sections added by feature stages: template names, in order
+    sections: list[str] = field(default_factory=list)
+    #: figures to draw: key -> callable(design) returning SVG text (called at render time)
+    figures: dict = field(default_factory=dict)
+    #: caution paragraphs added by feature stages (plain text)
+    cautions: list[str] = field(default_factory=list)
 
     @property
     def model(self) -> schema.ProjectFile:
@@ -119,6 +129,13 @@ def compute(project: Project) -> Design:
     d.sheets = [r.sheet for r in results] + [tot_sheet, sz.sheet, after.sheet]
     d.checks = core_checks(d)
     d.bom = capacitor_bom(d)
+    from .stages import STAGES
+
+    for stage in STAGES:
+        try:
+            stage(d)
+        except CalcError as exc:
+            raise InputError([project.locations.problem(getattr(exc, "path", ()), str(exc))]) from None
     return d
 
 

@@ -92,6 +92,8 @@ def to_dict(d: Design) -> dict:
             for sh in d.sheets
         ],
     }
+    for key, value in d.json.items():
+        out[key] = value
     return _clean(out)
 
 

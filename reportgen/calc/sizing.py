@@ -32,6 +32,8 @@ SMALL_LOAD_VAR = 1000.0
 MAX_GRID = 400_000
 #: relative tolerance on the window edges
 EDGE_TOL = 1e-9
+#: a size so small that more than this many would fit in the bank is left out of the search
+MAX_UNITS_PER_SIZE = 2000
 
 
 @dataclass(frozen=True)
@@ -152,6 +154,14 @@ def _choose(delivered: np.ndarray, q_lo: float, q_hi: float, q_no_lead: float):
     if k == 0 or np.any(delivered <= 0):
         raise CalcError("unit sizes must be positive")
     top = max(q_hi, q_no_lead)
+    usable = delivered * MAX_UNITS_PER_SIZE >= top
+    if not usable.any():
+        usable = delivered == delivered.max()
+    if not usable.all():
+        sub, status = _choose(delivered[usable], q_lo, q_hi, q_no_lead)
+        counts = np.zeros(k, dtype=int)
+        counts[np.flatnonzero(usable)] = sub
+        return counts, status
     res = _resolution(delivered, top)
     cells = np.rint(delivered / res).astype(np.int64)
     if np.any(cells <= 0):
@@ -164,7 +174,7 @@ def _choose(delivered: np.ndarray, q_lo: float, q_hi: float, q_no_lead: float):
     reach[0][0] = True
     via = []  # via[n][s] = index of a unit size that reaches s at level n (largest size first)
     best_short = None
-    max_levels = int(n_cells // max(cells.min(), 1)) + 1
+    max_levels = int(max(hi, no_lead) // max(int(cells.min()), 1)) + 1
     for n in range(1, max_levels + 1):
         prev = reach[-1]
         cur = np.zeros(n_cells, dtype=bool)
