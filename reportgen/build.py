@@ -88,6 +88,13 @@ def render_project(project: Project, stage: Path, options: Options) -> "object":
     html = templating.render("report.html", options.templates, root="../", inline_css=None, **ctx)
     (stage / "index.html").write_text(html, encoding="utf-8")
     (stage / "results.json").write_text(results.dumps(data), encoding="utf-8")
+    for rel, content in sorted(d.files.items()):
+        target = stage / rel
+        target.parent.mkdir(parents=True, exist_ok=True)
+        if isinstance(content, bytes):
+            target.write_bytes(content)
+        else:
+            target.write_text(content, encoding="utf-8")
     if options.pdf:
         from markupsafe import Markup
 

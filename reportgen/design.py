@@ -24,6 +24,22 @@ STATUS_ORDER = {"pass": 0, "warn": 1, "fail": 2}
 
 
 @dataclass(frozen=True)
+class LoadContext:
+    """What a load computer may use besides the load itself."""
+
+    phases: int
+    v_v: float
+    f_hz: float
+    project: Project
+    index: int  # position in loads[], for locating problems
+
+
+#: load kind -> computer(load, ctx) -> LoadPower, or None for a load that adds no power at the
+#: correction point (e.g. billing history). Feature stage modules register their kinds here.
+LOAD_COMPUTERS: dict = {}
+
+
+@dataclass(frozen=True)
 class Check:
     id: str
     status: str  # pass | warn | fail
@@ -63,6 +79,8 @@ class Design:
     figures: dict = field(default_factory=dict)
     #: caution paragraphs added by feature stages (plain text)
     cautions: list[str] = field(default_factory=list)
+    #: extra output files for the project folder: relative name -> text or bytes (e.g. "bom.csv")
+    files: dict = field(default_factory=dict)
 
     @property
     def model(self) -> schema.ProjectFile:
@@ -84,14 +102,24 @@ def compute(project: Project) -> Design:
     phases, v, f = sys_.phases, sys_.voltage, sys_.frequency
     results: list[L.LoadPower] = []
     problems: list[Problem] = []
+    from . import stages  # noqa: F401  (registers the feature load kinds)
+
     for i, load in enumerate(m.loads):
         try:
-            results.append(_load(load, phases, v, f))
+            lp = LOAD_COMPUTERS[load.kind](load, LoadContext(phases, v, f, project, i))
         except CalcError as exc:
-            problems.append(project.locations.problem(("loads", i, load.kind), str(exc)))
+            problems.append(project.locations.problem(("loads", i, load.kind) + tuple(getattr(exc, "path", ())),
+                                                      str(exc)))
+            continue
+        except InputError as exc:
+            problems.extend(exc.problems)
+            continue
+        if lp is not None:
+            results.append(lp)
     if problems:
         raise InputError(problems)
-    total = sum((r.s_va for r in results), 0j)
+    if not results:
+        raise InputError([project.locations.problem(("loads",), "no load adds power at the correction point")])
     tot_sheet = Sheet("Total at the correction point")
     p_tot = tot_sheet.calc("P", " + ".join(f"P_{k + 1}" for k in range(len(results))), "W",
                            "Total real power", **{f"P_{k + 1}": (r.p_w, "W") for k, r in enumerate(results)})
@@ -129,9 +157,7 @@ def compute(project: Project) -> Design:
     d.sheets = [r.sheet for r in results] + [tot_sheet, sz.sheet, after.sheet]
     d.checks = core_checks(d)
     d.bom = capacitor_bom(d)
-    from .stages import STAGES
-
-    for stage in STAGES:
+    for stage in stages.STAGES:
         try:
             stage(d)
         except CalcError as exc:
@@ -139,28 +165,36 @@ def compute(project: Project) -> Design:
     return d
 
 
-def _load(load: schema.Load, phases: int, v: float, f: float) -> L.LoadPower:
-    k, n = load.kind, load.count
-    if k == "meter":
-        mt = load.meter
-        return L.meter(load.name, phases, mt.voltage or v, mt.current, p_w=mt.power, pf=mt.power_factor,
-                       q_var=mt.reactive_power, leading=mt.leading, count=n)
-    if k == "motor":
-        mo = load.motor
-        return L.motor(load.name, phases, v, mo.output, mo.efficiency, mo.power_factor, count=n)
-    if k == "demand":
-        de = load.demand
-        return L.demand(load.name, phases, v, de.power, de.power_factor, de.leading, count=n)
-    if k == "scope":
-        sc = load.scope
-        return L.scope(load.name, phases, f, sc.voltage, sc.voltage_as, sc.shunt_voltage, sc.shunt_voltage_as,
-                       sc.shunt_resistance, time_shift_s=sc.time_shift, phase_rad=sc.phase_angle,
-                       leading=sc.current == "leading", shunt_in_measured_voltage=sc.shunt_in_measured_voltage,
-                       count=n)
-    if k == "network":
-        nw = load.network
-        return L.network(load.name, phases, v, f, to_node(nw), nw.connection, count=n)
-    raise AssertionError(k)  # pragma: no cover
+def _meter(load, c: LoadContext) -> L.LoadPower:
+    mt = load.meter
+    return L.meter(load.name, c.phases, mt.voltage or c.v_v, mt.current, p_w=mt.power, pf=mt.power_factor,
+                   q_var=mt.reactive_power, leading=mt.leading, count=load.count)
+
+
+def _motor(load, c: LoadContext) -> L.LoadPower:
+    mo = load.motor
+    return L.motor(load.name, c.phases, c.v_v, mo.output, mo.efficiency, mo.power_factor, count=load.count)
+
+
+def _demand(load, c: LoadContext) -> L.LoadPower:
+    de = load.demand
+    return L.demand(load.name, c.phases, c.v_v, de.power, de.power_factor, de.leading, count=load.count)
+
+
+def _scope(load, c: LoadContext) -> L.LoadPower:
+    sc = load.scope
+    return L.scope(load.name, c.phases, c.f_hz, sc.voltage, sc.voltage_as, sc.shunt_voltage, sc.shunt_voltage_as,
+                   sc.shunt_resistance, time_shift_s=sc.time_shift, phase_rad=sc.phase_angle,
+                   leading=sc.current == "leading", shunt_in_measured_voltage=sc.shunt_in_measured_voltage,
+                   count=load.count)
+
+
+def _network(load, c: LoadContext) -> L.LoadPower:
+    nw = load.network
+    return L.network(load.name, c.phases, c.v_v, c.f_hz, to_node(nw), nw.connection, count=load.count)
+
+
+LOAD_COMPUTERS.update(meter=_meter, motor=_motor, demand=_demand, scope=_scope, network=_network)
 
 
 def to_node(e: schema.Element) -> net.Node:

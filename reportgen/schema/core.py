@@ -1,4 +1,4 @@
-"""The project file format, declared once: every key, its kind, unit and range.
+"""The core of the project file format: title block, system, loads, correction.
 
 These pydantic models are the single description of ``project.yaml``. They
 validate the loaded data, convert every quantity to an SI float, and give the
@@ -11,96 +11,14 @@ Format history: 1 — the first published format.
 from __future__ import annotations
 
 import datetime as _dt
-from functools import partial
 from typing import Annotated, Any, Literal, Optional
 
-from pydantic import BaseModel, BeforeValidator, ConfigDict, Field, WithJsonSchema, model_validator
+from pydantic import BeforeValidator, Field, WithJsonSchema, model_validator
 from pydantic_core import PydanticCustomError
 
-from . import units
+from .fields import LOAD_KINDS, F, Model, Q, Text, _exactly_one, _quantity
 
 FORMATS = (1,)
-
-
-# --------------------------------------------------------------------------- field types
-
-
-def _quantity(kind: str, lo: float | None, lo_open: bool, hi: float | None, raw: Any) -> float:
-    try:
-        v = units.parse_quantity(raw, kind)
-    except units.UnitProblem as exc:
-        raise PydanticCustomError("quantity", str(exc)) from None
-    _range(v, raw, lo, lo_open, hi)
-    return v
-
-
-def _fraction(what: str, lo: float | None, lo_open: bool, hi: float | None, raw: Any) -> float:
-    try:
-        v = units.parse_fraction(raw, what)
-    except units.UnitProblem as exc:
-        raise PydanticCustomError("fraction", str(exc)) from None
-    _range(v, raw, lo, lo_open, hi, percent=True)
-    return v
-
-
-def _range(v, raw, lo, lo_open, hi, percent=False):
-    def show(x):
-        return f"{x:g} ({x * 100:g} %)" if percent else f"{x:g}"
-
-    if lo is not None and (v <= lo if lo_open else v < lo):
-        rel = "greater than" if lo_open else "at least"
-        raise PydanticCustomError("range", f"'{raw}' is out of range: must be {rel} {show(lo)}")
-    if hi is not None and v > hi:
-        raise PydanticCustomError("range", f"'{raw}' is out of range: must be at most {show(hi)}")
-    # absurd magnitudes (a 10^30 V supply) are refused whatever the field
-    if abs(v) > 1e15:
-        raise PydanticCustomError("range", f"'{raw}' is an implausible magnitude")
-
-
-def Q(kind: str, description: str, *, gt: float | None = None, ge: float | None = None,
-      le: float | None = None):
-    """A quantity field: a string with a unit, stored as an SI float."""
-    lo, lo_open = (gt, True) if gt is not None else (ge, False)
-    example = units.KINDS[kind].example
-    return Annotated[
-        float,
-        BeforeValidator(partial(_quantity, kind, lo, lo_open, le)),
-        WithJsonSchema({"type": "string", "description": description, "examples": [example],
-                        "x-kind": kind}),
-    ]
-
-
-def F(what: str, description: str, *, gt: float | None = 0.0, le: float | None = 1.0):
-    """A ratio field: 0.84 or '84 %', stored as a fraction."""
-    return Annotated[
-        float,
-        BeforeValidator(partial(_fraction, what, gt, True, le)),
-        WithJsonSchema({"anyOf": [{"type": "number"}, {"type": "string", "pattern": r"^\s*[0-9.]+\s*%\s*$"}],
-                        "description": description}),
-    ]
-
-
-def _text(raw: Any) -> Any:
-    if isinstance(raw, (int, float)) and not isinstance(raw, bool):
-        return str(raw)
-    return raw
-
-
-Text = Annotated[str, BeforeValidator(_text)]
-
-
-class Model(BaseModel):
-    model_config = ConfigDict(extra="forbid", frozen=True)
-
-
-def _exactly_one(obj: Any, keys: tuple[str, ...], where: str) -> None:
-    given = [k for k in keys if getattr(obj, k) is not None]
-    if len(given) != 1:
-        if given:
-            raise PydanticCustomError(
-                "exactly_one", f"{where}: give exactly one of {', '.join(keys)} (got {', '.join(given)})"
-            )
-        raise PydanticCustomError("exactly_one", f"{where}: give one of {', '.join(keys)}")
 
 
 # --------------------------------------------------------------------------- project and system
@@ -217,15 +135,19 @@ class Load(Model):
 
     @model_validator(mode="after")
     def _one(self):
-        _exactly_one(self, LOAD_KINDS, f"load '{self.name}'")
+        _exactly_one(self, self.kinds(), f"load '{self.name}'")
         return self
+
+    @classmethod
+    def kinds(cls) -> tuple[str, ...]:
+        return tuple(k for k in LOAD_KINDS if k in cls.model_fields)
 
     @property
     def kind(self) -> str:
-        return next(k for k in LOAD_KINDS if getattr(self, k) is not None)
+        return next(k for k in self.kinds() if getattr(self, k) is not None)
 
 
-LOAD_KINDS = ("meter", "motor", "demand", "scope", "network")
+LOAD_KINDS.extend(["meter", "motor", "demand", "scope", "network"])
 
 
 # --------------------------------------------------------------------------- correction
@@ -271,8 +193,3 @@ class ProjectFile(Model):
     correction: Correction
 
 
-def json_schema() -> dict:
-    schema = ProjectFile.model_json_schema()
-    schema["$schema"] = "https://json-schema.org/draft/2020-12/schema"
-    schema["title"] = "reportgen project file"
-    return schema

@@ -1,0 +1,7 @@
+"""Feature stage: protection (see reportgen/stages/__init__.py for the contract)."""
+
+from __future__ import annotations
+
+
+def run(d) -> None:
+    return None
