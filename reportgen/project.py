@@ -154,3 +154,41 @@ def _unwrap(tp):
             tp = typing.get_args(tp)[0]
             continue
         return tp
+
+
+# --------------------------------------------------------------------------- data files
+
+
+def shared_roots(project: Project) -> list[Path]:
+    """Folders a project may read data files from: its own folder, then the folder holding the
+    projects (where shared catalogs live, e.g. ``catalog: ../catalog.yaml``)."""
+    return [project.folder, project.folder.parent]
+
+
+def resolve_data_file(project: Project, rel: object, yaml_path: tuple, *, shared: bool = False,
+                      suffixes: tuple[str, ...] = ()) -> tuple[Path, str]:
+    """Resolve a file named in project.yaml; return (path, name to show in messages).
+
+    The name must be relative; it must resolve (symlinks followed) inside the project folder,
+    or with ``shared`` inside the folder holding the projects. Anything else is an InputError
+    located at ``yaml_path``.
+    """
+    from .fsutil import is_within
+
+    def bad(msg: str) -> InputError:
+        return InputError([project.locations.problem(yaml_path, msg)])
+
+    if not isinstance(rel, str) or not rel.strip():
+        raise bad("a file name is needed here, relative to the project folder")
+    if "\x00" in rel or rel.startswith(("/", "\\")) or (len(rel) > 1 and rel[1] == ":"):
+        raise bad(f"'{rel}': file names must be relative to the project folder, not absolute")
+    if suffixes and not rel.lower().endswith(suffixes):
+        raise bad(f"'{rel}': expected a {' or '.join(suffixes)} file")
+    path = project.folder / rel
+    roots = shared_roots(project) if shared else [project.folder]
+    if not any(is_within(path, r) for r in roots):
+        where = "the project folder or the folder holding the projects" if shared else "the project folder"
+        raise bad(f"'{rel}' is outside {where}; refused")
+    if not path.is_file():
+        raise bad(f"'{rel}': no such file beside {PROJECT_FILE}")
+    return path, display_path(path)
