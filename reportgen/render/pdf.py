@@ -8,7 +8,6 @@ identifiers and dates come from the content, not the clock.
 from __future__ import annotations
 
 import hashlib
-import os
 from pathlib import Path
 from urllib.parse import unquote, urlparse
 
@@ -58,7 +57,6 @@ def _fetcher(root: Path):
 
 def write_pdf(html: str, base_dir: Path, out: Path, *, title: str, date_iso: str, variant: str | None = None) -> None:
     """Render ``html`` (whose relative links resolve in ``base_dir``) to ``out``."""
-    os.environ.setdefault("SOURCE_DATE_EPOCH", "0")
     import weasyprint
 
     logging.getLogger("weasyprint").setLevel(logging.ERROR)
