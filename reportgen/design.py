@@ -40,6 +40,27 @@ LOAD_COMPUTERS: dict = {}
 
 
 @dataclass(frozen=True)
+class BankPlan:
+    """A feature's replacement for the core unit choice (e.g. an automatic stepped bank).
+
+    ``sizing`` describes the whole installed bank (its ``q_installed_var`` is the bank's total);
+    the after-correction figures of the report are computed with ``q_in_service_var`` (delivered)
+    and ``q_rated_in_service_var`` (nameplate), the part of the bank in service at the design
+    point. ``parts`` are put into ``Design.parts`` before the feature stages run.
+    """
+
+    sizing: sizing.Sizing
+    q_in_service_var: float
+    q_rated_in_service_var: float
+    parts: dict = field(default_factory=dict)
+
+
+#: planners fn(project, total_s_va, core_sizing, v_rated_v, f_rated_hz) -> BankPlan | None, run after the
+#: core sizing; the first plan returned replaces it. Feature stage modules register them at import.
+BANK_PLANNERS: list = []
+
+
+@dataclass(frozen=True)
 class Check:
     id: str
     status: str  # pass | warn | fail
@@ -149,11 +170,21 @@ def compute(project: Project) -> Design:
                               v_rated_v=v_r, f_rated_hz=f_r, allow_leading=corr.allow_leading)
     except CalcError as exc:
         raise InputError([project.locations.problem(("correction",), str(exc))]) from None
-    after = sizing.after_correction(total.real, total.imag, sz.q_installed_var, sz.q_rated_installed_var,
+    q_on, q_on_rated, plan_parts = sz.q_installed_var, sz.q_rated_installed_var, {}
+    for planner in BANK_PLANNERS:
+        try:
+            plan = planner(project, total, sz, v_r, f_r)
+        except CalcError as exc:
+            raise InputError([project.locations.problem(getattr(exc, "path", ("correction",)), str(exc))]) from None
+        if plan is not None:
+            sz, q_on, q_on_rated, plan_parts = plan.sizing, plan.q_in_service_var, plan.q_rated_in_service_var, plan.parts
+            break
+    after = sizing.after_correction(total.real, total.imag, q_on, q_on_rated,
                                     v_v=v, f_hz=f, v_rated_v=v_r, phases=phases, connection=corr.connection)
     d = Design(project, phases, v, f, results, total, L.line_current(total, v, phases), sz, after, v_r, f_r,
-               conn, sizing.phasors(total.real, total.imag, sz.q_installed_var, v, phases),
+               conn, sizing.phasors(total.real, total.imag, q_on, v, phases),
                units_default=units_default)
+    d.parts.update(plan_parts)
     d.sheets = [r.sheet for r in results] + [tot_sheet, sz.sheet, after.sheet]
     d.checks = core_checks(d)
     d.bom = capacitor_bom(d)
