@@ -67,8 +67,8 @@ def power_triangle(p_w: float, q1_var: float, q2_var: float, q_bank_var: float, 
     ax.text(P * 0.98, Q1, f"Q₁ = {num(Q1)} kvar", ha="right", va="bottom", color=COLORS["before"])
     a1 = math.degrees(math.atan2(Q1, P))
     a2 = math.degrees(math.atan2(Q2, P))
-    ax.text(P * 0.16, Q1 * 0.16 * 0.55 + 0.001, f"φ₁ = {num(a1, 3)}°", color=COLORS["before"], va="bottom")
-    ax.text(P * 0.30, Q2 * 0.30 - 0.001, f"φ₂ = {num(a2, 3)}°", color=COLORS["after"],
+    ax.text(P * 0.42, Q1 * 0.42, f"φ₁ = {num(a1, 3)}°  ", color=COLORS["before"], va="bottom", ha="right")
+    ax.text(P * 0.62, Q2 * 0.62, f"  φ₂ = {num(a2, 3)}°", color=COLORS["after"], ha="left",
             va="top" if Q2 >= 0 else "bottom")
     ymin = min(0, Q2, Q1) - 0.12 * max(abs(Q1), P * 0.3)
     ymax = max(Q1, Q2, 0) * 1.18 + 1e-9
@@ -84,43 +84,48 @@ def power_triangle(p_w: float, q1_var: float, q2_var: float, q_bank_var: float, 
 
 
 def phasor_diagram(ph: dict, phases: int) -> str:
-    """Per-phase voltage (reference) and the load, capacitor and source currents."""
+    """Per-phase voltage (reference) and the load, capacitor and source currents.
+
+    The currents share one scale; the capacitor current is drawn from the tip
+    of the load current, so the source current closes the triangle.
+    """
     plt = _pyplot()
-    fig, ax = plt.subplots(figsize=(6.2, 4.2))
+    fig, ax = plt.subplots(figsize=(6.4, 3.4))
     v = ph["v_v"]
-    currents = [("I_load", ph["i_load_a"], COLORS["before"], "load current"),
-                ("I_cap", ph["i_cap_a"], COLORS["bank"], "capacitor current"),
-                ("I_src", ph["i_source_a"], COLORS["after"], "source current")]
-    imax = max(abs(c[1]) for c in currents) or 1.0
-    scale = 0.85 / imax
-    ax.annotate("", xy=(1.0, 0), xytext=(0, 0),
-                arrowprops=dict(arrowstyle="-|>", color=COLORS["voltage"], lw=2.0, shrinkA=0, shrinkB=0))
-    ax.text(1.0, 0.03, f"V = {qty(abs(v), 'V')}" + (" (phase)" if phases == 3 else ""), ha="right", va="bottom")
-    for key, i, color, label in currents:
-        if abs(i) == 0:
-            continue
-        start = (0, 0)
-        if key == "I_cap":
-            # drawn head-to-tail from the load current's tip: the source current closes the sum
-            start = (ph["i_load_a"].real * scale, ph["i_load_a"].imag * scale)
-        end = (start[0] + i.real * scale, start[1] + i.imag * scale)
+    i_load, i_cap, i_src = ph["i_load_a"], ph["i_cap_a"], ph["i_source_a"]
+    imax = max(abs(i_load), abs(i_src), abs(i_cap)) or 1.0
+    scale = 1.0 / imax
+
+    def arrow(start, vec, color, lw=1.8):
+        end = (start[0] + vec.real * scale, start[1] + vec.imag * scale)
         ax.annotate("", xy=end, xytext=start,
-                    arrowprops=dict(arrowstyle="-|>", color=color, lw=1.8, shrinkA=0, shrinkB=0))
-        ang = math.degrees(math.atan2(i.imag, i.real))
-        ax.plot([], [], color=color, lw=1.8, label=f"{label}: {qty(abs(i), 'A')} ∠ {num(ang, 3)}°")
+                    arrowprops=dict(arrowstyle="-|>", color=color, lw=lw, shrinkA=0, shrinkB=0))
+        return end
+
+    ax.annotate("", xy=(1.15, 0), xytext=(0, 0),
+                arrowprops=dict(arrowstyle="-|>", color=COLORS["voltage"], lw=2.2, shrinkA=0, shrinkB=0))
+    ax.text(1.15, 0.04, f"V = {qty(abs(v), 'V')}" + (" (phase)" if phases == 3 else ""), ha="right", va="bottom")
+    tip = arrow((0, 0), i_load, COLORS["before"])
+    if abs(i_cap) > 0:
+        arrow(tip, i_cap, COLORS["bank"])
+    arrow((0, 0), i_src, COLORS["after"], lw=2.2)
+    for vec, color, label in ((i_load, COLORS["before"], "load current"), (i_cap, COLORS["bank"], "capacitor current"),
+                              (i_src, COLORS["after"], "source current")):
+        ang = math.degrees(math.atan2(vec.imag, vec.real))
+        ax.plot([], [], color=color, lw=2, label=f"{label}\n{qty(abs(vec), 'A')} ∠ {num(ang, 3)}°")
+    ys = [0.0, i_load.imag * scale, i_src.imag * scale, (i_load + i_cap).imag * scale]
+    ax.set_xlim(-0.08, 1.2)
+    ax.set_ylim(min(ys) - 0.12, max(max(ys), 0) + 0.2)
     ax.set_aspect("equal")
-    lo = min(-0.1, min((c[1].imag * scale for c in currents), default=0) - 0.1,
-             ph["i_load_a"].imag * scale + ph["i_cap_a"].imag * scale - 0.1)
-    ax.set_xlim(-0.1, 1.15)
-    ax.set_ylim(min(lo, -0.2), 0.45)
     ax.set_xticks([])
     ax.set_yticks([])
     ax.grid(False)
-    for s in ax.spines.values():
-        s.set_visible(False)
-    ax.axhline(0, color="#bbb", lw=0.6)
-    ax.axvline(0, color="#bbb", lw=0.6)
-    ax.legend(loc="upper left", frameon=False, fontsize=8.5)
-    ax.text(1.15, ax.get_ylim()[0], "currents to a common scale;\nvoltage as reference, not to scale",
-            ha="right", va="bottom", fontsize=7.5, color="#666")
+    for sp in ax.spines.values():
+        sp.set_visible(False)
+    ax.axhline(0, color="#bbb", lw=0.6, zorder=0)
+    ax.axvline(0, color="#bbb", lw=0.6, zorder=0)
+    ax.legend(loc="upper left", bbox_to_anchor=(1.02, 1.0), frameon=False, fontsize=8.5, handlelength=1.6,
+              labelspacing=1.0)
+    ax.set_title("currents to one scale; voltage as the reference direction", fontsize=8, color="#666",
+                 loc="left")
     return to_svg(fig)

@@ -7,7 +7,7 @@ import math
 PREFIXES = [(1e9, "G"), (1e6, "M"), (1e3, "k"), (1.0, ""), (1e-3, "m"), (1e-6, "µ"), (1e-9, "n"), (1e-12, "p")]
 #: units that take prefixes, and the smallest/largest prefix used for each (trade usage)
 PREFIXED = {
-    "W": ("", "M"), "var": ("", "M"), "VA": ("", "M"), "V": ("m", "k"), "A": ("m", "k"),
+    "W": ("", "M"), "var": ("", "M"), "VA": ("", "M"), "V": ("m", "k"), "A": ("m", ""),
     "ohm": ("m", "M"), "H": ("µ", ""), "F": ("p", "µ"), "s": ("µ", ""), "Hz": ("", "k"),
     "Wh": ("k", "M"), "varh": ("k", "M"), "rad/s": ("", "k"),
 }
