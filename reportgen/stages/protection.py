@@ -451,12 +451,12 @@ def _load_catalog(d):
     name = d.model.catalog
     if name is None:
         return None
-    from ..project import resolve_data_file
+    from ..project import display_path, resolve_data_file
     from ..readers.catalog import read_catalog
 
-    path, display = resolve_data_file(d.project, name, ("catalog",), shared=True,
-                                      suffixes=(".yaml", ".yml", ".csv"))
-    return read_catalog(path, display)
+    path, _ = resolve_data_file(d.project, name, ("catalog",), shared=True,
+                                suffixes=(".yaml", ".yml", ".csv"))
+    return read_catalog(path, display_path(path.resolve()))
 
 
 def _plain(s: str) -> str:
