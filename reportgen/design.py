@@ -34,6 +34,22 @@ class LoadContext:
     index: int  # position in loads[], for locating problems
 
 
+#: bank delivery hooks (feature stage modules append): fn(model, v_v, f_hz) -> BankDelivery or None.
+#: A hook changes what each unit delivers at the bus beyond (V/V_r)^2 (f/f_r), e.g. a detuning
+#: reactor's 1/(1 - p), and may propose the capacitor rated voltage when the file gives none.
+BANK_DELIVERY: list = []
+
+
+@dataclass(frozen=True)
+class BankDelivery:
+    factor: float  # multiplies the delivered kvar of every unit
+    expr: str  # the factor as a sheet expression in the names of ``values``
+    values: dict  # sheet values for ``expr``
+    title: str  # what the factor is, for the sizing sheet
+    v_rated_default_v: float | None = None  # capacitor rated voltage to use when the file gives none
+    note: str = ""  # why that rated voltage
+
+
 #: load kind -> computer(load, ctx) -> LoadPower, or None for a load that adds no power at the
 #: correction point (e.g. billing history). Feature stage modules register their kinds here.
 LOAD_COMPUTERS: dict = {}
@@ -150,7 +166,9 @@ def compute(project: Project) -> Design:
     total = complex(p_tot, q_tot)
 
     corr = m.correction
-    v_r = corr.rated_voltage or v
+    deliveries = [b for b in (hook(m, v, f) for hook in BANK_DELIVERY) if b is not None]
+    v_r_default = next((b.v_rated_default_v for b in deliveries if b.v_rated_default_v), None)
+    v_r = corr.rated_voltage or v_r_default or v
     f_r = corr.rated_frequency or f
     conn = corr.connection if phases == 3 else "single"
     if corr.unit_sizes:
@@ -166,8 +184,7 @@ def compute(project: Project) -> Design:
         units = sizing.default_units(max(total.imag, 0.0), v_r, f_r, phases, corr.connection)
         units_default = True
     try:
-        sz = sizing.size_bank(total.real, total.imag, corr.target_power_factor, units, v_v=v, f_hz=f,
-                              v_rated_v=v_r, f_rated_hz=f_r, allow_leading=corr.allow_leading)
+        sz = _size(total, corr, units, deliveries, v, f, v_r, f_r, corr.rated_voltage is None)
     except CalcError as exc:
         raise InputError([project.locations.problem(("correction",), str(exc))]) from None
     q_on, q_on_rated, plan_parts = sz.q_installed_var, sz.q_rated_installed_var, {}
@@ -194,6 +211,34 @@ def compute(project: Project) -> Design:
         except CalcError as exc:
             raise InputError([project.locations.problem(getattr(exc, "path", ()), str(exc))]) from None
     return d
+
+
+def _size(total: complex, corr, units: list, deliveries: list, v: float, f: float, v_r: float, f_r: float,
+          v_r_defaulted: bool) -> sizing.Sizing:
+    """Size the bank; with delivery hooks each unit is sized on what it delivers with them."""
+    if not deliveries:
+        return sizing.size_bank(total.real, total.imag, corr.target_power_factor, units, v_v=v, f_hz=f,
+                                v_rated_v=v_r, f_rated_hz=f_r, allow_leading=corr.allow_leading)
+    import dataclasses
+
+    pre = Sheet("Sizing")
+    mult = 1.0
+    for b in deliveries:
+        if v_r_defaulted and b.v_rated_default_v and b.note:
+            pre.note(b.note, "Capacitor rated voltage")
+        mult *= pre.calc("m", b.expr, "", b.title, **b.values)
+    scaled = [dataclasses.replace(u, q_rated_var=u.q_rated_var * mult) for u in units]
+    sz = sizing.size_bank(total.real, total.imag, corr.target_power_factor, scaled, v_v=v, f_hz=f,
+                          v_rated_v=v_r, f_rated_hz=f_r, allow_leading=corr.allow_leading)
+    back = {id(s): u for s, u in zip(scaled, units)}
+    choices = tuple(dataclasses.replace(c, unit=back[id(c.unit)]) for c in sz.choices)
+    pre.note(f"Each unit delivers its nameplate kvar times k·m = {sz.factor * mult:.6g} at the bus "
+             f"(k from the voltage and frequency below, m = {mult:.6g} above); the choice below is made "
+             "on the delivered kvar.", "Delivered kvar")
+    pre.extend(sz.sheet)
+    return dataclasses.replace(sz, choices=choices, factor=sz.factor * mult,
+                               q_rated_installed_var=float(sum(c.count * c.unit.q_rated_var for c in choices)),
+                               sheet=pre)
 
 
 def _meter(load, c: LoadContext) -> L.LoadPower:

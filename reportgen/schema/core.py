@@ -70,6 +70,9 @@ class Motor(Model):
     output: Q("real_power", "Shaft output, in hp or kW", gt=0)
     efficiency: F("efficiency", "Efficiency, 0.94 or 94 %")
     power_factor: F("power factor", "Power factor at the operating load")
+    no_load_current: Optional[Q("current", "No-load (magnetizing) current, for a capacitor at the motor "
+                                "terminals", gt=0)] = None
+    at_motor: bool = Field(False, description="A capacitor is applied at this motor's terminals")
 
 
 class Demand(Model):
