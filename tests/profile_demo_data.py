@@ -22,6 +22,8 @@ from pathlib import Path
 import numpy as np
 
 DEMO = Path(__file__).resolve().parent.parent / "projects_demo" / "eastfield-dc-480v"
+SURVEY = DEMO.parent / "eastfield-dc-design-480v"
+SURVEY_SPAN = ("2025-06-02", "2025-09-01")  # a 13-week summer logger survey, Monday to Monday
 START = np.datetime64("2025-01-01T00:00")
 N = 365 * 96
 CLOSED = ("2025-01-01", "2025-05-26", "2025-07-04", "2025-11-27", "2025-12-25")
@@ -119,5 +121,22 @@ def bills(t, p_kw, q_kvar) -> str:
     return "".join(rows)
 
 
+def write_survey(folder: Path = SURVEY) -> None:
+    """The design-mode variant: thirteen summer weeks from a portable logger that records kW and
+    the power factor (rounded to three decimals), no bills."""
+    t, p, q = profile()
+    sel = (t >= np.datetime64(SURVEY_SPAN[0])) & (t < np.datetime64(SURVEY_SPAN[1]))
+    t, p, q = t[sel], p[sel], q[sel]
+    pf = p / np.hypot(p, q)
+    ts = np.char.replace(np.datetime_as_string(t, unit="s"), "T", " ")
+    lines = ["timestamp,kW,PF\n"] + [f"{a},{b:.1f},{c:.3f}\n" for a, b, c in zip(ts.tolist(), p.tolist(), pf.tolist())]
+    folder.mkdir(parents=True, exist_ok=True)
+    (folder / "survey.csv").write_text("".join(lines), encoding="utf-8")
+
+
 if __name__ == "__main__":
-    write(Path(sys.argv[1]) if len(sys.argv) > 1 else DEMO)
+    if len(sys.argv) > 1:
+        write(Path(sys.argv[1]))
+    else:
+        write()
+        write_survey()

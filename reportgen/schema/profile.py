@@ -168,7 +168,7 @@ class IntervalFile(Model):
         given = [k for k in ("reactive_column", "power_factor_column") if getattr(self, k) is not None]
         if len(given) != 1:
             raise PydanticCustomError(
-                "exactly_one", "interval: give exactly one of reactive_column, power_factor_column"
+                "exactly_one", "give exactly one of reactive_column, power_factor_column"
                 + (f" (got {', '.join(given)})" if given else ""))
         return self
 
@@ -206,15 +206,15 @@ class Steps(Model):
         if self.design:
             extra = [k for k in ("count", "size") if getattr(self, k) is not None]
             if extra:
-                raise PydanticCustomError("exactly_one", f"steps: give either design or count and size (got "
+                raise PydanticCustomError("exactly_one", f"give either design or count and size (got "
                                           f"design and {', '.join(extra)})")
             return self
         missing = [k for k in ("count", "size") if getattr(self, k) is None]
         if missing:
-            raise PydanticCustomError("exactly_one", f"steps: give count and size (missing {', '.join(missing)}), "
+            raise PydanticCustomError("exactly_one", f"give count and size (missing {', '.join(missing)}), "
                                       "or write steps: design")
         if self.weighting == "binary" and self.count > 16:
-            raise PydanticCustomError("range", f"steps: a binary-weighted bank has at most 16 steps, got {self.count}")
+            raise PydanticCustomError("range", f"a binary-weighted bank has at most 16 steps, got {self.count}")
         return self
 
 
@@ -274,14 +274,14 @@ class CorrectionFields(Model):
     def _bank(self):
         auto = self.bank == "automatic"
         if auto and self.steps is None:
-            raise PydanticCustomError("exactly_one", "correction: an automatic bank needs steps: "
+            raise PydanticCustomError("exactly_one", "an automatic bank needs steps: "
                                       "{count: 6, size: 50 kvar} or steps: design")
         for key in ("steps", "controller", "step_design"):
             if not auto and getattr(self, key) is not None:
-                raise PydanticCustomError("exactly_one", f"correction: {key} applies to an automatic bank only; "
+                raise PydanticCustomError("exactly_one", f"{key} applies to an automatic bank only; "
                                           "add bank: automatic")
         if self.step_design is not None and not (self.steps is not None and self.steps.design):
-            raise PydanticCustomError("exactly_one", "correction: step_design applies to steps: design only")
+            raise PydanticCustomError("exactly_one", "step_design applies to steps: design only")
         return self
 
 
@@ -363,7 +363,7 @@ class EconomicsFields(Model):
     @model_validator(mode="after")
     def _tx(self):
         if (self.transformer_rating is None) != (self.transformer_load_loss is None):
-            raise PydanticCustomError("exactly_one", "economics: give transformer_rating and "
+            raise PydanticCustomError("exactly_one", "give transformer_rating and "
                                       "transformer_load_loss together")
         return self
 
