@@ -80,7 +80,7 @@ def week(d) -> str:
     fig, (a1, a2) = plt.subplots(2, 1, figsize=(6.2, 5.0), sharex=True)
     a1.plot(days, sim.p_w[i0:i1] / 1e3, color=COLORS["before"], lw=1.0, label="P")
     a1.set_ylabel("P (kW)")
-    a1.legend(loc="upper right", frameon=False)
+    a1.legend(loc="lower right", bbox_to_anchor=(1.0, 1.0), frameon=False, ncol=1)
     a2.plot(days, sim.q_var[i0:i1] / 1e3, color=COLORS["before"], lw=1.0, label="Q before")
     a2.step(days, sim.q_bank_var[i0:i1] / 1e3, where="post", color=COLORS["bank"], lw=1.0, label="bank in service")
     a2.plot(days, sim.q_after_var[i0:i1] / 1e3, color=COLORS["after"], lw=1.0, label="Q after")
@@ -89,7 +89,7 @@ def week(d) -> str:
     a2.set_xlabel(f"days from {str(t[0])[:10]} 00:00 (interval start times as in the file)")
     a2.set_xlim(0, max(days[-1], 1.0))
     a2.set_xticks(np.arange(0, int(days[-1]) + 2))
-    a2.legend(loc="upper right", frameon=False, ncol=3, fontsize=8)
+    a2.legend(loc="lower center", bbox_to_anchor=(0.5, 1.0), frameon=False, ncol=3, fontsize=8)
     return to_svg(fig)
 
 
@@ -145,8 +145,13 @@ def design(d) -> str:
     ax.axvline(ds.share * 100, color=TARGET, lw=1.0, ls="--", label=f"required share {ds.share * 100:g} %")
     ax.set_xlabel(f"intervals at PF {ds.target_pf:.2f} or better (%)")
     cur = d.model.tariff.currency if d.model.tariff is not None else ""
-    ax.set_ylabel(f"cost ({cur}, {'placeholder model' if plan.search_source == 'placeholder' else 'cost model'})")
+    ax.set_ylabel(f"cost ({cur}, {'placeholder model' if plan.search_source == 'placeholder' else 'cost model'}, log scale)")
     ax.set_xlim(max(0.0, float(met.min()) - 2), 100.5)
+    ax.set_yscale("log")
+    from matplotlib.ticker import FuncFormatter
+
+    ax.yaxis.set_major_formatter(FuncFormatter(lambda v, _: num(v, 3)))
+    ax.yaxis.set_minor_formatter(FuncFormatter(lambda v, _: ""))
     ax.legend(loc="upper left", frameon=False, fontsize=7)
     return to_svg(fig)
 

@@ -740,6 +740,9 @@ def _money(d, prof: ProfilePart | None, plan: Plan | None, bl: list[int], sheets
         exc.path = ("tariff",)
         raise
     sheets.append(sh)
+    if len(usage) < 12:
+        d.checks.append(Check("billing_period", "warn", f"The annual bill saving is scaled from {len(usage)} "
+                              "month(s) to twelve; seasonal changes in load and power factor are not captured."))
     missing = [u.month for u in usage if u.month not in effects]
     if missing:
         d.checks.append(Check("billing_months", "warn", "No interval data for " + ", ".join(missing)
