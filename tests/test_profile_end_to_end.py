@@ -32,6 +32,7 @@ def site(tmp_path_factory):
     src = tmp_path_factory.mktemp("src")
     for n in NAMES:
         shutil.copytree(DEMO / n, src / n)
+    shutil.copy(DEMO / "catalog.yaml", src / "catalog.yaml")  # the shared price list
     out = tmp_path_factory.mktemp("site")
     assert main(["build", str(src), "--out", str(out), "--quiet"]) == 0
     return out

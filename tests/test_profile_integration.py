@@ -125,13 +125,15 @@ def test_economics_against_numpy_financial(eastfield):
     assert e["npv"] == pytest.approx(npf.npv(0.07, flows), rel=1e-9)
     assert e["irr"] == pytest.approx(npf.irr(flows), rel=1e-6)
     assert e["payback_years"] == pytest.approx(e["investment"] / e["annual_saving"])
-    assert e["installed_cost_source"] in ("bom", "placeholder")
+    # installed_cost: from_bom takes the priced bill of materials of the protection stage
+    assert e["installed_cost_source"] == "bom" and e["investment"] == eastfield.parts["bom"].total
 
 
 def test_fixed_bank_variant_overcorrects_at_light_load(tmp_path, capsys):
     """The same site with the core's fixed bank: it leads at night; the limit is the minimum Q."""
     src = tmp_path / "fixed"
     shutil.copytree(EASTFIELD, src)
+    shutil.copy(DEMO / "catalog.yaml", tmp_path / "catalog.yaml")
     y = src / "project.yaml"
     text = y.read_text()
     text = text.replace("  bank: automatic\n  steps: {count: 8, size: 25 kvar}\n"
