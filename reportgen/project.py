@@ -110,6 +110,15 @@ def _problem(err: dict, loc: tuple, locs: yamlload.Locations) -> Problem:
     msg = err["msg"]
     if kind in ("quantity", "fraction", "range", "exactly_one"):
         return locs.problem(loc, f"{where}: {msg}")
+    if kind in ("string_too_long", "too_long"):
+        n = err.get("ctx", {}).get("max_length")
+        unit = "characters" if isinstance(err.get("input"), str) else "items"
+        return locs.problem(loc, f"{where}: too long (at most {n} {unit})")
+    if kind in ("string_too_short", "too_short"):
+        n = err.get("ctx", {}).get("min_length")
+        if n == 1:
+            return locs.problem(loc, f"{where}: must not be empty")
+        return locs.problem(loc, f"{where}: too short (at least {n})")
     if kind == "literal_error":
         return locs.problem(loc, f"{where}: {msg.replace('Input should be', 'must be')} (got {err['input']!r})")
     msg = msg.replace("Input should be", "must be").replace("Value error, ", "")

@@ -24,6 +24,10 @@ MAX_NODES = 200_000
 
 Path_ = tuple  # a path into the data: keys and list indices
 
+#: the only YAML tags a project file may use (the YAML 1.1 core types reportgen reads)
+SAFE_TAGS = frozenset("tag:yaml.org,2002:" + t for t in
+                      ("str", "int", "float", "bool", "null", "map", "seq", "timestamp", "merge"))
+
 
 @dataclass
 class Locations:
@@ -75,6 +79,10 @@ class _Converter:
             raise _Abort(Problem(self.locs.file, *_pos(node),
                                  f"nesting deeper than {MAX_DEPTH} levels; refused"))
         self.locs.values.setdefault(path, _pos(node))
+        if node.tag not in SAFE_TAGS:
+            self.problems.append(Problem(self.locs.file, *_pos(node),
+                                         f"the YAML tag '{node.tag}' is not allowed in a project file"))
+            return None
         if isinstance(node, yaml.MappingNode):
             out: dict = {}
             for knode, vnode in node.value:
@@ -106,6 +114,13 @@ class _Converter:
             return None
 
 
+def _reader_problem(file: str, text: str, exc: "yaml.reader.ReaderError") -> Problem:
+    pos = exc.position if isinstance(exc.position, int) else 0
+    line = text[:pos].count("\n") + 1
+    col = pos - (text.rfind("\n", 0, pos) + 1) + 1
+    return Problem(file, line, col, f"character U+{exc.character:04X} is not allowed in a YAML file")
+
+
 class _Abort(Exception):
     def __init__(self, problem: Problem):
         self.problem = problem
@@ -116,6 +131,9 @@ def load(text: str | bytes, file: str) -> tuple[object, Locations]:
     if isinstance(text, bytes):
         if len(text) > MAX_BYTES:
             raise InputError([Problem(file, 1, 1, f"file is larger than {MAX_BYTES // 1000} kB; refused")])
+        if b"\x00" in text:
+            line = text[: text.index(b"\x00")].count(b"\n") + 1
+            raise InputError([Problem(file, line, 1, "file contains binary data (NUL byte)")])
         try:
             text = text.decode("utf-8")
         except UnicodeDecodeError as exc:
@@ -127,7 +145,10 @@ def load(text: str | bytes, file: str) -> tuple[object, Locations]:
         line = text[: text.index("\x00")].count("\n") + 1
         raise InputError([Problem(file, line, 1, "file contains binary data (NUL byte)")])
     locs = Locations(file)
-    loader = yaml.SafeLoader(text)
+    try:
+        loader = yaml.SafeLoader(text)
+    except yaml.reader.ReaderError as exc:
+        raise InputError([_reader_problem(file, text, exc)]) from None
     try:
         node = loader.get_single_node()
         if node is None:
@@ -141,6 +162,8 @@ def load(text: str | bytes, file: str) -> tuple[object, Locations]:
         if exc.context:
             msg = f"{exc.context}: {msg}" if "while" not in exc.context else f"{msg} ({exc.context})"
         raise InputError([Problem(file, line, col, f"YAML syntax error: {msg}")]) from None
+    except yaml.reader.ReaderError as exc:
+        raise InputError([_reader_problem(file, text, exc)]) from None
     except yaml.YAMLError as exc:
         raise InputError([Problem(file, 1, 1, f"YAML error: {exc}")]) from None
     except _Abort as abort:
