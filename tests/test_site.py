@@ -72,8 +72,9 @@ def test_manifest_rebuilds_exactly_what_changed(tmp_path):
     # a new data file inside one project folder -> that project only
     (src / "joinery-workshop-230v" / "notes.csv").write_text("a,b\n1,2\n")
     assert run_build(src, out)[0] == {"joinery-workshop-230v"}
-    # a shared file beside the projects (a catalog) -> all
-    (src / "catalog.yaml").write_text("# shared catalog\n")
+    # a shared file beside the projects (e.g. the shared catalog) -> all
+    cat = src / "catalog.yaml"
+    cat.write_text(cat.read_text() + "\n# price list checked\n")
     assert run_build(src, out)[0] == names
     # a template override -> all
     (src / "templates").mkdir()

@@ -456,7 +456,9 @@ def _load_catalog(d):
 
     path, _ = resolve_data_file(d.project, name, ("catalog",), shared=True,
                                 suffixes=(".yaml", ".yml", ".csv"))
-    return read_catalog(path, display_path(path.resolve()))
+    catalog = read_catalog(path, display_path(path.resolve()))  # errors: named as the user sees them
+    catalog.display = name  # outputs: as written in project.yaml, so they do not depend on the build folder
+    return catalog
 
 
 def _plain(s: str) -> str:
