@@ -93,13 +93,27 @@ def shared_files(folder: Path) -> list[Path]:
     return sorted(p for p in parent.iterdir() if p.is_file() and not p.name.startswith("."))
 
 
+_CODE_HASH: str | None = None
+
+
+def code_hash() -> str:
+    """A hash of reportgen's own source, so a changed program rebuilds even at the same version."""
+    global _CODE_HASH
+    if _CODE_HASH is None:
+        from .manifest import hash_files
+
+        pkg = Path(__file__).resolve().parent
+        _CODE_HASH = hash_files(sorted(p for p in pkg.rglob("*.py") if "__pycache__" not in p.parts), pkg)
+    return _CODE_HASH
+
+
 def input_hash(folder: Path, tmpl: dict[str, Path], options: Options) -> str:
     from . import gitinfo
 
     files = {f"project/{p.relative_to(folder).as_posix()}": p for p in folder_files(folder)}
     files.update({f"shared/{p.name}": p for p in shared_files(folder)})
     files.update(tmpl)
-    extra = {"reportgen": __version__, "options": options.fingerprint(),
+    extra = {"reportgen": __version__, "code": code_hash(), "options": options.fingerprint(),
              "source_date_epoch": os.environ.get("SOURCE_DATE_EPOCH")}
     if options.git:
         extra["git"] = gitinfo.source_info(folder)
