@@ -204,6 +204,10 @@ def main(argv: list[str] | None = None) -> int:
         return exc.exit_code
     except KeyboardInterrupt:
         return 130
+    except Exception as exc:  # a bug: say so in one line, never a traceback
+        print(f"reportgen: internal error: {type(exc).__name__}: {exc} (please report it with the project "
+              "file that caused it)", file=sys.stderr)
+        return 70
 
 
 if __name__ == "__main__":  # pragma: no cover

@@ -153,6 +153,14 @@ def names(expr: str) -> list[str]:
     return seen
 
 
+def _range_error(what: str, exc: Exception | None):
+    from .errors import CalcError
+
+    detail = "a division by zero" if isinstance(exc, ZeroDivisionError) else "a result out of range"
+    return CalcError(f"{what[0].lower() + what[1:]}: the inputs lead to {detail}; check the values for "
+                     "implausible magnitudes")
+
+
 @dataclass(frozen=True)
 class Value:
     """A value substituted into a formula: SI magnitude and its unit symbol."""
@@ -229,7 +237,16 @@ class Sheet:
         missing = [n for n in names(expr) if n not in bound]
         if missing:
             raise FormulaError(f"formula {expr!r}: no value for {', '.join(missing)}")
-        result = evaluate(expr, {k: b.value for k, b in bound.items()})
+        try:
+            result = evaluate(expr, {k: b.value for k, b in bound.items()})
+        except (OverflowError, ZeroDivisionError, ValueError) as exc:
+            raise _range_error(title or symbol, exc) from None
+        if isinstance(result, complex):
+            finite = math.isfinite(result.real) and math.isfinite(result.imag)
+        else:
+            finite = math.isfinite(result)
+        if not finite:
+            raise _range_error(title or symbol, None)
         self.steps.append(Step(symbol, expr, bound, result, unit, title, note))
         return result
 

@@ -29,7 +29,9 @@ DEFAULT_C_SERIES = tuple(m * 10.0**e for e in range(-9, -2) for m in (1.0, 1.5, 
 #: below this reactive power the default series is capacitances, not kvar units
 SMALL_LOAD_VAR = 1000.0
 #: largest number of grid cells for the unit-combination search
-MAX_GRID = 400_000
+MAX_GRID = 100_000
+#: most units a bank may be made of; beyond this the unit sizes do not suit the load
+MAX_UNITS_TOTAL = 1000
 #: relative tolerance on the window edges
 EDGE_TOL = 1e-9
 #: a size so small that more than this many would fit in the bank is left out of the search
@@ -154,6 +156,9 @@ def _choose(delivered: np.ndarray, q_lo: float, q_hi: float, q_no_lead: float):
     if k == 0 or np.any(delivered <= 0):
         raise CalcError("unit sizes must be positive")
     top = max(q_hi, q_no_lead)
+    if q_lo / delivered.max() > MAX_UNITS_TOTAL:
+        raise CalcError(f"the bank would need more than {MAX_UNITS_TOTAL} units of the largest size on hand "
+                        f"({delivered.max():.6g} var for {q_lo:.6g} var); give larger unit sizes")
     usable = delivered * MAX_UNITS_PER_SIZE >= top
     if not usable.any():
         usable = delivered == delivered.max()
@@ -170,15 +175,15 @@ def _choose(delivered: np.ndarray, q_lo: float, q_hi: float, q_no_lead: float):
     lo = int(math.ceil(q_lo * (1 - EDGE_TOL) / res - 1e-6))
     hi = int(math.floor(q_hi * (1 + EDGE_TOL) / res + 1e-6))
     no_lead = int(math.floor(q_no_lead * (1 + EDGE_TOL) / res + 1e-6))
-    reach = [np.zeros(n_cells, dtype=bool)]
-    reach[0][0] = True
+    prev_reach = np.zeros(n_cells, dtype=bool)
+    prev_reach[0] = True
     via = []  # via[n][s] = index of a unit size that reaches s at level n (largest size first)
     best_short = None
-    max_levels = int(max(hi, no_lead) // max(int(cells.min()), 1)) + 1
+    max_levels = min(int(max(hi, no_lead) // max(int(cells.min()), 1)) + 1, MAX_UNITS_TOTAL)
     for n in range(1, max_levels + 1):
-        prev = reach[-1]
+        prev = prev_reach
         cur = np.zeros(n_cells, dtype=bool)
-        pick = np.full(n_cells, -1, dtype=np.int16)
+        pick = np.full(n_cells, -1, dtype=np.int8)
         for idx in np.argsort(-delivered, kind="stable"):
             c = int(cells[idx])
             if c >= n_cells:
@@ -190,7 +195,7 @@ def _choose(delivered: np.ndarray, q_lo: float, q_hi: float, q_no_lead: float):
             cur |= shifted
         if not cur.any():
             break
-        reach.append(cur)
+        prev_reach = cur
         via.append(pick)
         window = np.flatnonzero(cur[lo : hi + 1]) if lo <= hi else np.array([], dtype=np.int64)
         if window.size:

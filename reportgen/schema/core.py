@@ -68,7 +68,7 @@ class Motor(Model):
     """A motor from its nameplate: shaft output, efficiency and power factor at the operating load."""
 
     output: Q("real_power", "Shaft output, in hp or kW", gt=0)
-    efficiency: F("efficiency", "Efficiency, 0.94 or 94 %")
+    efficiency: F("efficiency", "Efficiency, 0.94 or 94 %", gt=0.05)
     power_factor: F("power factor", "Power factor at the operating load")
     no_load_current: Optional[Q("current", "No-load (magnetizing) current, for a capacitor at the motor "
                                 "terminals", gt=0)] = None
