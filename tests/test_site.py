@@ -233,3 +233,15 @@ def test_schema_is_json_schema(capsys):
     import jsonschema
 
     jsonschema.Draft202012Validator.check_schema(schema)
+
+
+def test_pdf_a_3b_variant(tmp_path):
+    import pypdf
+
+    src = copy_demo(tmp_path / "src", {"joinery-workshop-230v"})
+    assert build(src, tmp_path / "site", "--pdf-variant", "pdf/a-3b") == 0
+    reader = pypdf.PdfReader(str(tmp_path / "site" / "joinery-workshop-230v" / "joinery-workshop-230v.pdf"))
+    root = reader.trailer["/Root"]
+    assert "/OutputIntents" in root  # ISO 19005-3: an output intent (sRGB) is embedded
+    xmp = root["/Metadata"].get_object().get_data()
+    assert b"pdfaid" in xmp and b"3" in xmp.split(b"pdfaid:part")[1][:8]
