@@ -29,7 +29,14 @@ class Problem:
     message: str
 
     def __str__(self) -> str:
-        return f"{self.file}:{self.line}:{self.col}: {self.message}"
+        return f"{_one_line(self.file)}:{self.line}:{self.col}: {_one_line(self.message)}"
+
+
+def _one_line(text: str) -> str:
+    """Control characters from a hostile file shown escaped, so a problem stays one line."""
+    if text.isprintable():
+        return text
+    return "".join(c if c.isprintable() else repr(c)[1:-1] for c in text)
 
 
 class InputError(ReportgenError):
