@@ -88,7 +88,7 @@ def dotted(loc: tuple) -> str:
             out += f"[{part}]"
         else:
             out += ("." if out else "") + str(part)
-    return out or "(file)"
+    return out or "the top level"
 
 
 def _problem(err: dict, loc: tuple, locs: yamlload.Locations) -> Problem:
