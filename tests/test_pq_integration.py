@@ -12,6 +12,7 @@ import math
 import shutil
 from pathlib import Path
 
+import numpy as np
 import pytest
 
 from reportgen.cli import main
@@ -160,3 +161,84 @@ def test_format_1_files_without_new_keys_are_unchanged(capsys):
     data = calc_json(DEMO / "cold-store-480v", capsys)
     assert data["power_quality"]["assessed"] is False
     assert [c["status"] for c in data["checks"] if c["id"] == "power_quality"] == ["warn"]
+
+
+# ------------------------------------------------------------------ outside references through a project
+
+
+def test_demo_bus_voltage_matches_pandapower(plain):
+    # Reference tool: pandapower Newton-Raphson load flow of the demo's supply: a 13.8 kV slack behind the
+    # utility impedance (5 kA fault current, X/R 8, modelled as a line), a 1500 kVA 6.5 % X/R 6 transformer
+    # without core losses, the loads as one constant-PQ load, the bank as a shunt (constant admittance).
+    pp = pytest.importorskip("pandapower")
+    import warnings
+
+    def bus_v(p_mw, q_mvar, q_bank_mvar):
+        net = pp.create_empty_network(sn_mva=1.0, f_hz=60.0)
+        b0, b1, b2 = (pp.create_bus(net, vn_kv=kv) for kv in (13.8, 13.8, 0.48))
+        pp.create_ext_grid(net, b0, vm_pu=1.0, va_degree=0.0)
+        z = 13.8**2 / (math.sqrt(3) * 13.8 * 5.0)  # ohm at 13.8 kV, S = sqrt(3)*V*I
+        pp.create_line_from_parameters(net, b0, b1, length_km=1.0, r_ohm_per_km=z / math.sqrt(65),
+                                       x_ohm_per_km=8 * z / math.sqrt(65), c_nf_per_km=0.0, max_i_ka=100.0)
+        pp.create_transformer_from_parameters(net, b1, b2, sn_mva=1.5, vn_hv_kv=13.8, vn_lv_kv=0.48,
+                                              vk_percent=6.5, vkr_percent=6.5 / math.sqrt(37), pfe_kw=0.0,
+                                              i0_percent=0.0, shift_degree=0.0)
+        pp.create_load(net, b2, p_mw=p_mw, q_mvar=q_mvar)
+        if q_bank_mvar:
+            pp.create_shunt(net, b2, q_mvar=-q_bank_mvar, p_mw=0.0, vn_kv=0.48)
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")
+            pp.runpp(net, tolerance_mva=1e-11, max_iteration=50, init="flat")
+        return float(net.res_bus.vm_pu.at[b2])
+
+    p, q1 = plain["total"]["p_w"] / 1e6, plain["total"]["q_var"] / 1e6
+    q_bank = plain["correction"]["q_installed_var"] / 1e6
+    pqj = plain["power_quality"]
+    assert pqj["v_before_pu"] == pytest.approx(bus_v(p, q1, 0.0), abs=1e-6)
+    assert pqj["v_after_pu"] == pytest.approx(bus_v(p, q1, q_bank), abs=1e-6)
+    assert pqj["v_light_load_pu"] == pytest.approx(bus_v(0.0, 0.0, q_bank), abs=1e-6)
+
+
+def _capture(path: Path, cycles: int = 5, fs: float = 12_000.0):
+    """An invented phase capture at exactly 60 Hz, a whole number of cycles (FFT bins = orders)."""
+    n = int(cycles * fs / 60)
+    t = np.arange(n) / fs
+    w = 2 * math.pi * 60
+    v = 277 * math.sqrt(2) * (np.cos(w * t) + 0.02 * np.cos(5 * w * t + 1.0))
+    i = 40 * math.sqrt(2) * (np.cos(w * t - 0.4) + 0.28 * np.cos(5 * w * t - 2.0) + 0.11 * np.cos(7 * w * t + 0.5)
+                             + 0.05 * np.cos(11 * w * t))
+    path.write_text("time,volts,amps\n" + "".join(f"{a:.7f},{b:.4f},{c:.5f}\n" for a, b, c in zip(t, v, i)))
+    return t, np.round(v, 4), np.round(i, 5)
+
+
+def test_waveform_load_matches_numpy_fft(tmp_path, capsys):
+    # Reference: numpy.fft over a whole number of cycles (no leakage) and numpy means of v*i.
+    folder = tmp_path / "w"
+    folder.mkdir()
+    _, v, i = _capture(folder / "cap.csv")
+    (folder / "project.yaml").write_text(
+        "format: 1\nproject: {title: Capture check}\nsystem: {frequency: 60 Hz, phases: 3, voltage: 480 V}\n"
+        "loads:\n  - name: Capture\n    count: 2\n"
+        "    waveform: {file: cap.csv, time_column: time, voltage_column: volts, current_column: amps}\n"
+        "correction: {target_power_factor: 0.95}\n")
+    data = calc_json(folder, capsys)
+    ld = data["loads"][0]
+    fv, fi = np.fft.rfft(v) / v.size * 2 / math.sqrt(2), np.fft.rfft(i) / i.size * 2 / math.sqrt(2)
+    k = 5  # bin of the fundamental: 5 cycles in the record
+    orders = np.arange(2, 51)
+    thd_i = math.sqrt(float(np.sum(np.abs(fi[k * orders]) ** 2))) / abs(fi[k]) * 100
+    thd_v = math.sqrt(float(np.sum(np.abs(fv[k * orders]) ** 2))) / abs(fv[k]) * 100
+    p_ph = float(np.mean(v * i))
+    q1_ph = float((fv[k] * np.conj(fi[k])).imag)
+    dpf = math.cos(np.angle(fv[k]) - np.angle(fi[k]))
+    true_pf = p_ph / (math.sqrt(np.mean(v**2)) * math.sqrt(np.mean(i**2)))
+    assert ld["thd_i_pct"] == pytest.approx(thd_i, rel=1e-4)
+    assert ld["thd_v_pct"] == pytest.approx(thd_v, rel=1e-3)
+    assert ld["displacement_pf"] == pytest.approx(dpf, abs=1e-5)
+    assert ld["true_pf"] == pytest.approx(true_pf, abs=1e-5)
+    # three balanced phases and two identical loads: P = 2*3*mean(v*i), Q = 2*3*Q_1 (like scope loads)
+    assert ld["p_w"] == pytest.approx(6 * p_ph, rel=1e-5)
+    assert ld["q_var"] == pytest.approx(6 * q1_ph, rel=1e-4)
+    # the captured spectrum (% of the fundamental) is what the harmonics of this load become
+    assert ld["harmonics_pct"]["5"] == pytest.approx(abs(fi[5 * k]) / abs(fi[k]) * 100, rel=1e-4)
+    assert ld["harmonics_pct"]["7"] == pytest.approx(11.0, rel=1e-3)  # as constructed: 11 %

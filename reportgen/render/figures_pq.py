@@ -39,6 +39,8 @@ def scan(d) -> str:
                 ax.semilogy(prop.scan.h, prop.scan.z_bank_ohm * 1e3 if prop.scan.z_detuned_ohm is None else
                             prop.scan.z_detuned_ohm * 1e3, color=DETUNED, lw=1.4, ls="--",
                             label=f"proposed: {num(res.proposal.detuning_p * 100, 3)} % reactor")
+    lo = float(np.min(sc.z_source_ohm)) * 1e3 / 30.0
+    ax.set_ylim(bottom=lo)
     top = ax.get_ylim()[1]
     for n in _orders_marked(view):
         ax.axvline(n, color="#888", lw=0.7, ls=":", zorder=0)
@@ -47,7 +49,7 @@ def scan(d) -> str:
         hr = res.resonance_order
         z_at = float(np.interp(hr, h, sc.z_detuned_ohm if view["p"] else sc.z_bank_ohm)) * 1e3
         ax.plot([hr], [z_at], marker="v", color="#222", ms=6, ls="none",
-                label=f"parallel resonance h = {num(hr, 3)}")
+                label=f"parallel resonance h = {num(hr, 4)}")
     ax.set_xlim(1, 50)
     ax.set_xlabel("harmonic order h (f / f₁); dotted: orders the loads carry")
     ax.set_ylabel("|Z| at the bus per phase (mΩ)")
@@ -104,9 +106,11 @@ def waveform_spectra(d) -> str:
         shown = pct >= 0.2
         if shown.any():
             n_top = max(n_top, int(o[shown].max()) + 2)
-        ax.bar(o + (k - (len(loads) - 1) / 2) * w, pct, width=w, label=f"{lp.name}: THD_I "
+        ax.bar(o + (k - (len(loads) - 1) / 2) * w, pct, width=w, label=f"{lp.name}: current THD "
                f"{num(lp.extras['thd_i_pct'], 3)} %", color=[COLORS["after"], DETUNED, COLORS["bank"]][k % 3])
-    ax.set_xlim(1.4, min(50, n_top) + 0.6)
+    n_top = min(50, n_top)
+    ax.set_xlim(1.4, n_top + 0.6)
+    ax.set_xticks(range(3, n_top + 1, 2 if n_top <= 25 else 4))
     ax.set_xlabel("harmonic order h")
     ax.set_ylabel("current (% of fundamental)")
     ax.legend(loc="upper right", frameon=False, fontsize=8)

@@ -34,7 +34,7 @@ class Utility(Model):
 
     @model_validator(mode="after")
     def _one(self):
-        _exactly_one(self, ("short_circuit_power", "fault_current"), "system.source.utility")
+        _exactly_one(self, ("short_circuit_power", "fault_current"), "utility")
         return self
 
 
@@ -60,15 +60,15 @@ class Source(Model):
         bus = self.short_circuit_power is not None or self.x_r is not None
         if self.utility is not None and bus:
             raise PydanticCustomError(
-                "exactly_one", "system.source: give either utility (and transformer) or the bus's own "
+                "exactly_one", "give either utility (and transformer) or the bus's own "
                 "short_circuit_power and x_r, not both")
         if self.utility is None:
             if self.transformer is not None:
-                raise PydanticCustomError("exactly_one", "system.source: a transformer needs the utility "
+                raise PydanticCustomError("exactly_one", "a transformer needs the utility "
                                           "that feeds it (give utility: {short_circuit_power, x_r, voltage})")
             if self.short_circuit_power is None or self.x_r is None:
                 raise PydanticCustomError(
-                    "exactly_one", "system.source: give utility: {...} (and transformer: {...}), or "
+                    "exactly_one", "give utility: {...} (and transformer: {...}), or "
                     "short_circuit_power and x_r of the bus together")
         return self
 
@@ -132,9 +132,9 @@ class Waveform(Model):
     def _current(self):
         _exactly_one(self, ("current_column", "shunt_column"), "waveform")
         if self.shunt_column is not None and self.shunt_resistance is None:
-            raise PydanticCustomError("exactly_one", "waveform: shunt_column needs shunt_resistance")
+            raise PydanticCustomError("exactly_one", "shunt_column needs shunt_resistance")
         if self.shunt_column is None and self.shunt_resistance is not None:
-            raise PydanticCustomError("exactly_one", "waveform: shunt_resistance goes with shunt_column, "
+            raise PydanticCustomError("exactly_one", "shunt_resistance goes with shunt_column, "
                                       "not with current_column")
         return self
 
