@@ -242,3 +242,27 @@ def test_waveform_load_matches_numpy_fft(tmp_path, capsys):
     # the captured spectrum (% of the fundamental) is what the harmonics of this load become
     assert ld["harmonics_pct"]["5"] == pytest.approx(abs(fi[5 * k]) / abs(fi[k]) * 100, rel=1e-4)
     assert ld["harmonics_pct"]["7"] == pytest.approx(11.0, rel=1e-3)  # as constructed: 11 %
+
+
+def test_automatic_bank_checks_every_step(tmp_path, capsys):
+    # Resonance of each cumulative step against the IEEE Std 1036 guide estimate sqrt(S_sc/Q) (from memory):
+    # the exact order (with R) stays within 2 % of it; the in-service bank is the design point's steps.
+    folder = tmp_path / "auto"
+    shutil.copytree(PLAIN, folder)
+    y = folder / "project.yaml"
+    y.write_text(y.read_text().replace("  target_power_factor: 0.95\n", "  target_power_factor: 0.95\n"
+                                       "  bank: automatic\n  steps: {count: 6, size: 125 kvar}\n"))
+    data = calc_json(folder, capsys)
+    q = data["power_quality"]
+    st = q["steps"]
+    assert st["q_cumulative_var"] == pytest.approx([125e3 * k for k in range(1, 7)])
+    for qc, h, h_est in zip(st["q_cumulative_var"], st["resonance_order"], st["resonance_order_estimate"]):
+        assert h_est == pytest.approx(math.sqrt(q["s_sc_va"] / qc), rel=1e-12)
+        assert h == pytest.approx(h_est, rel=0.02)
+    # 6 x 125 kvar resonates within 10 % of the 5th; 375 kvar near the 7th (hand: sqrt(19.34e6/375e3) = 7.18)
+    assert st["near_order"][-1] == 5 and st["near_order"][2] == 7
+    checks = {c["id"]: c for c in data["checks"]}
+    assert checks["pq_step_resonance"]["status"] == "fail"
+    q_on = data["total"]["q_var"] - data["correction"]["q_after_var"]
+    assert q["voltage_rise_estimate_pct"] == pytest.approx(q_on / q["s_sc_va"] * 100, rel=1e-12)
+    assert q["v_light_load_pu"] is None  # the controller switches steps out at light load

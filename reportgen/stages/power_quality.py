@@ -213,17 +213,17 @@ def _source(d, sheet: Sheet) -> pq.SourceImpedance:
 
 
 def _steps(d) -> list[float] | None:
-    """Delivered var of each bank step, when the project defines steps (stepped banks)."""
-    steps = getattr(d.model.correction, "steps", None)
-    if not steps:
-        return None
-    out = []
-    for s in steps:
-        q = s if isinstance(s, (int, float)) else getattr(s, "q_var", None) or getattr(s, "size", None)
-        if not isinstance(q, (int, float)):
-            return None
-        out.append(float(q) * d.sizing.factor)
-    return out or None
+    """Delivered var of each bank step in switching order, for an automatic (stepped) bank."""
+    plan = d.parts.get("bank_plan")
+    steps = getattr(getattr(plan, "delivered", None), "steps_var", None)
+    return [float(x) for x in steps] if steps else None
+
+
+def _bank_in_service(d) -> float:
+    """Delivered var of the bank in service at the design point (all of a fixed bank)."""
+    if d.parts.get("bank_plan") is None:
+        return d.sizing.q_installed_var
+    return float(d.total_s_va.imag - d.after.q_after_var)  # Q_c = Q_1 - Q_2 of the after-correction sheet
 
 
 def _status_max(*sts: str) -> str:
@@ -259,13 +259,14 @@ def run(d) -> None:
         if h:
             spectra.append({"name": lp.name, "harmonics_pct": h})
     p = m.correction.detuning or None
-    q_bank = d.sizing.q_installed_var
-    sh = Sheet("Power quality: voltage, resonance, harmonics, capacitor duty")
+    q_bank = _bank_in_service(d)
     steps = _steps(d)
+    sh = Sheet("Power quality: voltage, resonance, harmonics, capacitor duty")
     try:
         res = pq.assess(src, loads, q_bank, d.f_hz, detuning_p=p, step_q_var=steps,
-                        v_cap_rated_v=d.v_rated_v, sheet=sh)
-        light = pq.bus_voltage(src, 0j, q_bank) if q_bank > 0 else None
+                        v_cap_rated_v=m.correction.rated_voltage, sheet=sh)
+        # light load: a fixed bank stays in service; an automatic bank's controller switches steps out
+        light = pq.bus_voltage(src, 0j, q_bank) if q_bank > 0 and steps is None else None
     except CalcError as exc:
         exc.path = ("system", "source")
         raise
@@ -281,6 +282,7 @@ def run(d) -> None:
 
     out.update(res.as_dict())
     out["assessed"] = True
+    out["q_bank_var"] = q_bank  # delivered kvar of the bank in service at the design point
     out["source"] = src.as_dict()
     out["bus"] = res.bus.as_dict()
     out["v_light_load_pu"] = None if light is None else light.v_after_pu
@@ -383,8 +385,10 @@ def _checks(d, res: pq.PowerQuality, light, sig: list[int], p) -> None:
         if res.steps is not None and any(res.steps.near_order):
             bad = [f"{q / 1e3:.0f} kvar (order {hh:.2f})" for q, hh, n in
                    zip(res.steps.q_cumulative_var, res.steps.resonance_order, res.steps.near_order) if n]
-            new.append(Check("pq_step_resonance", "warn", "Bank steps resonate near a harmonic: " + ", ".join(bad)
-                             + ".", "IEEE Std 1036 (from memory)"))
+            carried = any(n in sig for n in res.steps.near_order if n)
+            new.append(Check("pq_step_resonance", "fail" if carried else "warn",
+                             "With these steps in service the bank resonates near a harmonic: " + ", ".join(bad)
+                             + ".", "IEEE Std 1036 (from memory); ±10 % band common practice"))
     hd = res.harmonics
     lim = hd.limits
     new.append(Check(
