@@ -266,3 +266,33 @@ def test_automatic_bank_checks_every_step(tmp_path, capsys):
     q_on = data["total"]["q_var"] - data["correction"]["q_after_var"]
     assert q["voltage_rise_estimate_pct"] == pytest.approx(q_on / q["s_sc_va"] * 100, rel=1e-12)
     assert q["v_light_load_pu"] is None  # the controller switches steps out at light load
+
+
+def test_single_phase_bus_source_and_shunt_capture(tmp_path, capsys):
+    # Single phase: the capture is the whole load (no factor 3); the current is the shunt voltage / R
+    # (Ohm's law); the bus source Z = V^2/S_sc is the loop impedance (hand calculation).
+    folder = tmp_path / "one"
+    folder.mkdir()
+    fs, n = 9_600.0, 640  # 4 cycles of 60 Hz
+    t = np.arange(n) / fs
+    w = 2 * math.pi * 60
+    v = 240 * math.sqrt(2) * np.cos(w * t)
+    i = 30 * math.sqrt(2) * (np.cos(w * t - 0.6) + 0.3 * np.cos(3 * (w * t - 0.6)))
+    (folder / "cap.csv").write_text("t;v;vsh\n" + "".join(f"{a:.7f};{b:.4f};{c * 0.01:.7f}\n"
+                                                          for a, b, c in zip(t, v, i)))
+    (folder / "project.yaml").write_text(
+        "format: 1\nproject: {title: Single phase}\n"
+        "system: {frequency: 60 Hz, phases: 1, voltage: 240 V, source: {short_circuit_power: 1.2 MVA, x_r: 3}}\n"
+        "loads:\n  - name: Rectifier bench\n"
+        "    waveform: {file: cap.csv, time_column: t, voltage_column: v, shunt_column: vsh, "
+        "shunt_resistance: 10 mohm}\n"
+        "correction: {target_power_factor: 0.95}\n")
+    data = calc_json(folder, capsys)
+    ld = data["loads"][0]
+    assert ld["p_w"] == pytest.approx(240 * 30 * math.cos(0.6), rel=1e-4)
+    assert ld["q_var"] == pytest.approx(240 * 30 * math.sin(0.6), rel=1e-4)
+    assert ld["thd_i_pct"] == pytest.approx(30.0, rel=1e-3)
+    q = data["power_quality"]
+    assert q["s_sc_va"] == pytest.approx(1.2e6, rel=1e-12)
+    assert q["source"]["x_ohm"] == pytest.approx(240**2 / 1.2e6 * 3 / math.sqrt(10), rel=1e-12)
+    assert q["harmonics"]["i_h_a"][1] == pytest.approx(0.3 * abs(complex(ld["p_w"], ld["q_var"])) / 240, rel=1e-3)
