@@ -13,7 +13,8 @@ and ``currency``, and the ratings it is matched on, written with their units::
         voltage: 600 V
         unit_price: 18.40
 
-A YAML catalog may also be a plain list of entries. A CSV catalog has a header row
+A YAML catalog may also be a plain list of entries; a file with only comments is a
+catalog with no entries. A CSV catalog has a header row
 with the same names as columns (an empty cell means "not given").
 
 Rating names and what they become (SI, as the bill of materials core matches them):
@@ -223,6 +224,8 @@ def _read_yaml(p: Path, display: str) -> list[dict]:
         raise InputError([Problem(display, 1, 1, "file not found")]) from None
     except OSError as exc:
         raise InputError([Problem(display, 1, 1, f"cannot read the file: {exc.strerror}")]) from None
+    if not any(ln.strip() and not ln.lstrip().startswith(b"#") for ln in data_bytes.splitlines()):
+        return []  # a catalog with no entries yet (only comments): every line stays unpriced
     data, locs = yamlload.load(data_bytes, display)
     base: tuple = ()
     currency = None
