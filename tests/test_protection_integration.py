@@ -205,3 +205,46 @@ def test_report_html_pdf_and_json(site, name):
     assert (folder / "bom.csv").read_text().startswith("line,item,quantity")
     svg = (folder / "figures" / "one_line.svg").read_text()
     assert svg.startswith("<svg") and "disconnect" in svg and norm(pr["conductor"]["size"]) in norm(svg)
+
+
+def test_stepped_bank_contactors_back_to_back_inrush_and_bom():
+    """printworks-480v-stepped: 5 steps of 25 kvar, 480 V 60 Hz, NEC, 6 µH between steps.
+
+    Hand calculation (IEEE Std 1036 / C37.012 back-to-back formulas, from memory):
+      step C_Y = 25000/(2π·60·480²) = 287.8 µF; the last step closes onto 4 steps:
+      C_eq = C·4C/(5C) = 0.8·C = 230.3 µF; V_pk = √2·480/√3 = 391.9 V;
+      I_pk = V_pk·√(C_eq/L) = 391.9·√(230.3e-6/6e-6) = 2428 A, plus √2·30.07 = 42.5 A -> 2470 A;
+      f = 1/(2π·√(L·C_eq)) = 4282 Hz; within the 4 kA contactor.
+      step: I_r 30.07 A; fuse 1.65·30.07 = 49.6 -> 50 A; contactor ≥ 1.35·30.07 = 40.6 A
+      (NEC 460.8(C) minimum for the step's switching device) -> RG-KC-60-600;
+      step conductor ≥ 40.6 A at 40 °C (0.88): 8 AWG 50·0.88 = 44 A is not protected by the 50 A fuse
+      (next standard rating above 44 A is 45 A, NEC 240.4(B)); 6 AWG 65·0.88 = 57.2 A;
+      5 steps × 3 conductors × 2 m = 30 m of RG-W-6-CU75 at 2.10 = 63.00.
+      total 1975.00 + 213.00 + 270.00 + 1050.00 + 198.00 + 1480.00 + 420.00 + 939.60 + 63.00 + 980.00
+            = 7588.60 USD
+    """
+    d = compute("printworks-480v-stepped")
+    pr = d.json["protection"]
+    assert pr["automatic"] is True and [s["q_rated_var"] for s in pr["steps"]] == [25e3] * 5
+    c = 25e3 / (2 * math.pi * 60 * 480**2)
+    c_eq, v_pk, l_b = 0.8 * c, math.sqrt(2) * 480 / math.sqrt(3), 6e-6
+    peak = v_pk * math.sqrt(c_eq / l_b) + v_pk * 2 * math.pi * 60 * c
+    assert pr["inrush"]["peak_a"] == pytest.approx(peak, rel=1e-9)
+    assert pr["inrush"]["peak_a"] == pytest.approx(2470, rel=1e-3)
+    assert pr["inrush"]["frequency_hz"] == pytest.approx(1 / (2 * math.pi * math.sqrt(l_b * c_eq)), rel=1e-9)
+    assert pr["switching"]["passed"] is True
+    by = lines_by_part(d)
+    assert by["RG-KC-60-600"]["quantity"] == 5 and by["RG-PFC-6"]["quantity"] == 1
+    assert by["RG-FU-50-600"]["quantity"] == 15 and by["RG-FH-60-600"]["quantity"] == 15
+    assert by["RG-W-6-CU75"]["quantity"] == 30 and by["RG-W-6-CU75"]["item"].startswith("steps S1, S2")
+    assert d.json["bom_summary"]["total"] == pytest.approx(7588.60)
+    assert d.parts["bom"].total == pytest.approx(7588.60)
+
+
+def test_comment_only_catalog_leaves_lines_unpriced(tmp_path):
+    src = tmp_path / "src"
+    shutil.copytree(DEMO / "printworks-480v", src / "printworks-480v")
+    (src / "catalog.yaml").write_text("# prices to follow\n")
+    d = design.compute(load_project(src / "printworks-480v"))
+    assert d.json["bom_summary"]["total"] is None
+    assert {c.id: c.status for c in d.checks}["bom_priced"] == "warn"

@@ -91,83 +91,92 @@ class _Pen:
 def one_line(d) -> str:
     pp = d.parts["protection"]
     bp = pp["bank"]
-    steps = pp["steps"]
+    steps = list(zip(pp["steps"], bp.steps))
     automatic = pp["automatic"]
     feeder = bp.feeder
     plt = _pyplot()
     n = len(steps)
-    step_w = 0.78
-    bank_x0 = 3.35
-    width = max(bank_x0 + 0.45 + n * step_w + 0.4, 7.6)
-    height = 7.4
-    fig, ax = plt.subplots(figsize=(width * 0.84, height * 0.84))
+    # at most four step columns: with more, the first three, an ellipsis and the last
+    shown = steps if n <= 4 else steps[:3] + [None] + steps[-1:]
+    step_w = 1.05
+    bank_x0 = 3.3
+    width = max(bank_x0 + 0.5 + len(shown) * step_w + 0.2, 8.0)
+    top = 7.4
+    fig = plt.figure(figsize=(width * 0.8, top * 0.8))
+    ax = fig.add_axes([0, 0, 1, 1])
     ax.set_xlim(0, width)
-    ax.set_ylim(0, height)
     ax.set_aspect("equal")
     ax.axis("off")
     pen = _Pen(ax)
-    ph = f"{d.phases}-phase" if d.phases == 3 else "single-phase"
+    ph = "3-phase" if d.phases == 3 else "single-phase"
 
     # ---- supply
-    sx = 1.0
-    pen.circle(sx, 7.05, 0.2)
-    pen.text(sx, 7.05, "~", ha="center", size=11)
-    pen.line(sx, 6.85, sx, 6.7)
-    pen.circle(sx, 6.52, 0.18)
-    pen.circle(sx, 6.27, 0.18)
-    pen.text(sx + 0.32, 7.05, "supply", size=8, weight="bold")
-    pen.text(sx + 0.32, 6.42, f"service transformer\nS_sc at the bus {qty(pp['s_sc_va'], 'VA')}"
-             + (" (assumed)" if pp["s_sc_assumed"] else ""), size=7.5)
-    pen.line(sx, 6.09, sx, 5.75)
+    sx = 0.9
+    pen.circle(sx, 7.1, 0.2)
+    pen.text(sx, 7.1, "~", ha="center", size=11)
+    pen.line(sx, 6.9, sx, 6.78)
+    pen.circle(sx, 6.6, 0.18)
+    pen.circle(sx, 6.35, 0.18)
+    pen.text(sx + 0.32, 7.1, "supply", size=8.5, weight="bold")
+    pen.text(sx + 0.32, 6.47, f"service transformer\nS_sc at the bus {qty(pp['s_sc_va'], 'VA')}"
+             + (" (assumed)" if pp["s_sc_assumed"] else ""), size=8)
+    pen.line(sx, 6.17, sx, 5.8)
 
     # ---- main bus and loads
-    bus_y = 5.75
-    bus_r = bank_x0 + 0.25
-    pen.line(0.25, bus_y, bus_r, bus_y, lw=3.2)
-    pen.text(0.25, bus_y + 0.17, f"main bus {qty(d.v_v, 'V')}, {ph}, {qty(d.f_hz, 'Hz')}", size=7.5,
+    bus_y = 5.8
+    pen.line(0.25, bus_y, bank_x0 + 0.25, bus_y, lw=3.2)
+    pen.text(sx + 0.15, bus_y + 0.17, f"main bus {qty(d.v_v, 'V')}, {ph}, {qty(d.f_hz, 'Hz')}", size=8,
              weight="bold")
     loads = d.loads[:4]
-    more = len(d.loads) - len(loads)
     for k, lp in enumerate(loads):
-        x = 0.45 + k * 0.62
-        pen.line(x, bus_y, x, bus_y - 0.45)
-        ax.annotate("", xy=(x, bus_y - 0.62), xytext=(x, bus_y - 0.4),
+        x = 0.5 + k * 0.65
+        pen.line(x, bus_y, x, bus_y - 0.4)
+        ax.annotate("", xy=(x, bus_y - 0.6), xytext=(x, bus_y - 0.38),
                     arrowprops=dict(arrowstyle="-|>", color=INK, lw=1.2, shrinkA=0, shrinkB=0))
-        name = lp.name if len(lp.name) <= 14 else lp.name[:13] + "…"
-        pen.text(x, bus_y - 0.72, f"{name}", ha="left", va="top", size=6.5, color=MUTED)
-        ax.texts[-1].set_rotation(-60)
-        ax.texts[-1].set_rotation_mode("anchor")
-    if more > 0:
-        pen.text(0.45 + len(loads) * 0.62 - 0.2, bus_y - 0.5, f"+{more} more", size=6.5, color=MUTED)
-    pen.text(0.25, 3.25, "loads (P, PF in section 3)", size=6.5, color=MUTED)
+        pen.text(x, bus_y - 0.72, f"L{k + 1}", ha="center", va="top", size=7.5)
+    y_list = bus_y - 2.5
+    for k, lp in enumerate(loads):
+        name = lp.name if len(lp.name) <= 26 else lp.name[:25] + "…"
+        pen.text(0.25, y_list - 0.22 * k, f"L{k + 1} {name}{' × ' + str(lp.count) if lp.count > 1 else ''}",
+                 size=7, color=MUTED)
+    if len(d.loads) > 4:
+        pen.text(0.25, y_list - 0.22 * 4, f"and {len(d.loads) - 4} more loads", size=7, color=MUTED)
+    low = y_list - 0.22 * min(len(d.loads), 5)
 
     # ---- bank feeder
     fx = bank_x0
     y = bus_y
+    fused = pp["options"].fused_disconnect
     pen.line(fx, y, fx, y - 0.2, BANK)
     pen.fuse(fx, y - 0.4, color=BANK)
-    pen.text(fx + 0.2, y - 0.4, f"feeder fuses {num(feeder.fuse_a)} A"
-             + (" (in the disconnect)" if pp["options"].fused_disconnect else ""), size=7.5)
+    pen.text(fx + 0.2, y - 0.4, f"fuses {num(feeder.fuse_a)} A" + (" (in the disconnect)" if fused else ""), size=8)
     pen.line(fx, y - 0.56, fx, y - 0.68, BANK)
     pen.switch(fx, y - 0.86, color=BANK)
-    pen.text(fx + 0.2, y - 0.86, f"disconnect {num(feeder.disconnect_a)} A", size=7.5)
+    pen.text(fx + 0.2, y - 0.86, f"disconnect {num(feeder.disconnect_a)} A", size=8)
     pen.line(fx, y - 1.04, fx, y - 1.6, BANK, lw=1.6)
     c = feeder.conductor
     sets = f"{c.sets} × " if c.sets > 1 else ""
-    pen.text(fx + 0.2, y - 1.3, f"feeder {sets}{c.size} {c.material.upper()} {c.insulation_temp_c} °C per phase, "
-             f"{qty(c.ampacity_a, 'A')} ≥ {qty(feeder.conductor_min_a, 'A')}", size=7.5)
+    pen.text(fx + 0.2, y - 1.25, f"feeder {sets}{c.size} {c.material.capitalize()} {c.insulation_temp_c} °C per phase",
+             size=8)
+    pen.text(fx + 0.2, y - 1.45, f"ampacity {qty(c.ampacity_a, 'A')} ≥ {qty(feeder.conductor_min_a, 'A')}",
+             size=7.5, color=MUTED)
     # ---- bank bus
-    bb_y = y - 1.75
-    x_first = bank_x0 + 0.45
-    xs = [x_first + step_w * (k + 0.5) for k in range(n)]
+    bb_y = y - 1.8
+    xs = [bank_x0 + 0.5 + step_w * (k + 0.5) for k in range(len(shown))]
     pen.line(fx, y - 1.6, fx, bb_y, BANK, lw=1.6)
-    pen.line(fx, bb_y, xs[-1] + 0.1, bb_y, BANK, lw=2.4)
-    pen.text(fx - 0.12, bb_y - 0.02, f"bank {kvar(sum(s.q_rated_var for s in steps))}", ha="right", size=7.5,
-             weight="bold", color=BANK)
-    pen.text(fx - 0.12, bb_y - 0.22, f"I_r {qty(feeder.rated_current_a, 'A')}", ha="right", size=7, color=MUTED)
+    pen.line(fx, bb_y, xs[-1] + 0.15, bb_y, BANK, lw=2.4)
+    pen.text(fx - 0.12, bb_y + 0.02, f"bank {kvar(sum(st.q_rated_var for st, _ in steps))}", ha="right",
+             size=8, weight="bold", color=BANK)
+    pen.text(fx - 0.12, bb_y - 0.2, f"rated {qty(feeder.rated_current_a, 'A')}", ha="right", size=7.5, color=MUTED)
 
     show_fuse = automatic or n > 1
-    for k, (st, sp, x) in enumerate(zip(steps, bp.steps, xs)):
+    kind = "step" if automatic else "group"
+    for k, (item, x) in enumerate(zip(shown, xs)):
+        if item is None:
+            pen.text(x, bb_y - 1.2, "…", ha="center", size=14)
+            pen.text(x, bb_y - 1.55, f"{n - 4} more", ha="center", size=7, color=MUTED)
+            continue
+        st, sp = item
         yy = bb_y
         pen.line(x, yy, x, yy - 0.2)
         yy -= 0.2
@@ -186,44 +195,51 @@ def one_line(d) -> str:
             pen.line(x, yy, x, yy - 0.06)
             pen.coil(x, yy - 0.26)
             yy -= 0.46
-            labels.append(f"L {qty(st.reactor_l_h, 'H', 3)} ({num(st.detuning_pct, 3)} %)")
+            labels.append(f"L {qty(st.reactor_l_h, 'H', 3)}")
         pen.line(x, yy, x, yy - 0.25)
         yy -= 0.25
-        cap_y = yy - 0.04
+        cap_y = yy - 0.2
         pen.capacitor(x, cap_y)
-        # discharge resistor in parallel
-        rx = x + 0.24
+        rx = x + 0.26
         pen.line(x, cap_y + 0.2, rx, cap_y + 0.2, lw=0.9)
         pen.resistor(rx, cap_y, h=0.3)
         pen.line(rx, cap_y - 0.15, rx, cap_y - 0.2, lw=0.9)
         pen.line(x, cap_y + 0.2, x, cap_y + 0.035)
         pen.line(x, cap_y - 0.035, x, cap_y - 0.2)
         pen.line(x, cap_y - 0.2, rx, cap_y - 0.2, lw=0.9)
-        pen.text(x, cap_y - 0.32, f"{st.name}", ha="center", va="top", size=7.5, weight="bold")
-        pen.text(x, cap_y - 0.52, f"{st.count} × {kvar(st.unit.q_var)}", ha="center", va="top", size=7)
+        name = st.name if automatic or n > 1 else "fixed bank"
+        pen.text(x, cap_y - 0.3, name, ha="center", va="top", size=8, weight="bold")
+        pen.text(x, cap_y - 0.52, f"{st.count} × {kvar(st.unit.q_var)}", ha="center", va="top", size=7.5)
         for j, t in enumerate(labels):
-            pen.text(x, cap_y - 0.72 - 0.19 * j, t, ha="center", va="top", size=6.5, color=MUTED)
-        if k == 0:
-            rlabel = "R built in" if pp["built_in"] else "R"
-            low = cap_y - 0.72 - 0.19 * len(labels)
-            pen.text(x - 0.25, low - 0.05, f"{rlabel} ≤ {qty(min(x.max_resistance_ohm for x in pp['discharge']), 'ohm', 3)} "
-                     "per element", ha="left", va="top", size=6.5, color=MUTED)
+            pen.text(x, cap_y - 0.74 - 0.2 * j, t, ha="center", va="top", size=7, color=MUTED)
+        low = min(low, cap_y - 0.74 - 0.2 * len(labels))
+    r_max = min(x.max_resistance_ohm for x in pp["discharge"])
+    pen.text(bank_x0 + 0.5, low - 0.12, f"discharge: R ≤ {qty(r_max, 'ohm', 3)} per element"
+             + (" (built into the units)" if pp["built_in"] else "") + (f"; {kind}s: " + ", ".join(
+                 t for t, on in (("F fuse", show_fuse), ("K contactor (≥ rated)", automatic),
+                                 ("L reactor", any(st.detuning_pct for st, _ in steps))) if on)
+                 if (show_fuse or automatic or any(st.detuning_pct for st, _ in steps)) else ""),
+             size=7, color=MUTED)
+    low -= 0.45
     # legend of symbols
-    lg_y = 0.55
-    pen.text(0.25, lg_y + 0.35, "Symbols:", size=6.5, color=MUTED)
+    lg_y = low - 0.25
     pen.fuse(0.35, lg_y, h=0.22)
-    pen.text(0.5, lg_y, "fuse", size=6.5, color=MUTED)
-    pen.switch(1.2, lg_y, h=0.28)
-    pen.text(1.32, lg_y, "disconnect", size=6.5, color=MUTED)
-    pen.switch(2.25, lg_y, h=0.28, contactor=True)
-    pen.text(2.37, lg_y, "contactor", size=6.5, color=MUTED)
-    pen.capacitor(3.2, lg_y)
-    pen.text(3.42, lg_y, "capacitor", size=6.5, color=MUTED)
-    pen.resistor(4.15, lg_y, h=0.24)
-    pen.text(4.27, lg_y, "discharge resistor", size=6.5, color=MUTED)
-    if any(s.detuning_pct for s in steps):
-        pen.coil(5.45, lg_y, h=0.26, turns=3)
-        pen.text(5.57, lg_y, "reactor", size=6.5, color=MUTED)
-    pen.text(width - 0.05, 0.12, f"{pp['rule_name']}; one line shown for {d.phases} phase"
-             f"{'s' if d.phases == 3 else ''}", ha="right", size=6.5, color=MUTED)
+    pen.text(0.5, lg_y, "fuse", size=7, color=MUTED)
+    pen.switch(1.25, lg_y, h=0.28)
+    pen.text(1.37, lg_y, "disconnect", size=7, color=MUTED)
+    if automatic:
+        pen.switch(2.45, lg_y, h=0.28, contactor=True)
+        pen.text(2.57, lg_y, "contactor", size=7, color=MUTED)
+    pen.capacitor(3.55, lg_y)
+    pen.text(3.77, lg_y, "capacitor", size=7, color=MUTED)
+    pen.resistor(4.75, lg_y, h=0.24)
+    pen.text(4.87, lg_y, "discharge resistor", size=7, color=MUTED)
+    if any(st.detuning_pct for st, _ in steps):
+        pen.coil(6.4, lg_y, h=0.26, turns=3)
+        pen.text(6.55, lg_y, "reactor", size=7, color=MUTED)
+    pen.text(width - 0.05, lg_y - 0.38, f"{pp['rule_name']}; one line drawn for {d.phases} phase"
+             f"{'s' if d.phases == 3 else ''}", ha="right", size=7, color=MUTED)
+    bottom = lg_y - 0.55
+    ax.set_ylim(bottom, top)
+    fig.set_size_inches(width * 0.8, (top - bottom) * 0.8)
     return to_svg(fig)

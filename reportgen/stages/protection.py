@@ -22,9 +22,9 @@ Step layout, in order of preference:
    profile feature), a list of step sizes;
 3. otherwise a fixed bank: the units chosen by the sizing, one group per unit size,
    switched together as one step.
-Step sizes from 1 and 2 are taken as delivered var at the system voltage (the
-convention of reportgen.calc.profile.Bank); each becomes ``n`` units of the largest
-size on hand that divides its nameplate kvar, else one unit of that size.
+Step sizes from 1 and 2 are nameplate kvar (the profile feature puts the Bank at
+nameplate kvar); each becomes ``n`` units of the largest size on hand that divides it,
+else one unit of that size.
 """
 
 from __future__ import annotations
@@ -88,18 +88,23 @@ def _as_var(x) -> float | None:
 
 
 def _step_sizes(d) -> tuple[list[float] | None, str]:
+    """Nameplate kvar of each step of an automatic bank, or None for a fixed bank."""
     bank = d.parts.get("bank")
     sv = getattr(bank, "steps_var", None)
     if sv:
-        return [float(x) for x in sv], "the stepped bank (profile)"
-    steps = getattr(d.model.correction, "steps", None)
-    if steps is None:
+        return [float(x) for x in sv], "the automatic bank's steps"
+    corr = d.model.correction
+    if getattr(corr, "bank", None) == "fixed":
         return None, ""
-    if isinstance(steps, (list, tuple)):
-        vals = [_as_var(x) for x in steps]
-    else:
-        inner = getattr(steps, "sizes", None) or getattr(steps, "steps", None)
-        vals = [_as_var(x) for x in inner] if isinstance(inner, (list, tuple)) else [None]
+    steps = getattr(corr, "steps", None)
+    if steps is None or getattr(steps, "design", False):
+        return None, ""
+    count, size = getattr(steps, "count", None), getattr(steps, "size", None)
+    if isinstance(count, int) and isinstance(size, (int, float)) and count >= 1 and size > 0:
+        if getattr(steps, "weighting", "equal") == "binary":
+            return [float(size) * 2**k for k in range(count)], "correction.steps"
+        return [float(size)] * count, "correction.steps"
+    vals = [_as_var(x) for x in steps] if isinstance(steps, (list, tuple)) else [None]
     if not vals or any(v is None or not v > 0 for v in vals):
         return None, ""
     return vals, "correction.steps"
@@ -140,13 +145,11 @@ def _steps(d) -> tuple[list[prot.BankStep], bool, str]:
     p_pct = _detuning_pct(d)
     sizes, source = _step_sizes(d)
     if sizes:
-        factor = d.sizing.factor or 1.0
         on_hand = sorted({c.unit.q_rated_var for c in d.sizing.choices}
                          | {u.get("q_var") for u in (d.model.correction.unit_sizes or []) if u.get("q_var")},
                          reverse=True)
         out = []
-        for k, q_del in enumerate(sizes):
-            q_r = q_del / factor
+        for k, q_r in enumerate(sizes):
             unit_q, count = q_r, 1
             for uq in on_hand:
                 n = q_r / uq
@@ -407,6 +410,7 @@ def _adjust_needs(needs, steps, bp, automatic, fused_disconnect, v_v, motors):
                 {"i_a": n.rating["i_a"], "v_v": v_v},
                 f"holds the {num(n.rating['i_a'])} A fuses: rated at least {num(n.rating['i_a'])} A "
                 f"and {num(v_v)} V"))
+    out = _merge_step_conductors(out)
     for mc in motors:
         r = mc["result"]
         out.append(bom_mod.BomNeed(
@@ -414,6 +418,26 @@ def _adjust_needs(needs, steps, bp, automatic, fused_disconnect, v_v, motors):
             {"q_var": mc["q_var"], "v_v": v_v},
             f"switched with the motor (NEC 460.8(C) exception); conductors ≥ {num(r.conductor_min_a)} A "
             "(NEC 460.8(A))"))
+    return out
+
+
+def _merge_step_conductors(needs):
+    """One line for the steps' conductors of the same size and run length (S1, S2, ... together)."""
+    out, groups = [], {}
+    for n in needs:
+        if n.kind == "conductor" and n.item.startswith("step ") and n.item.endswith(" conductors"):
+            key = tuple(sorted((k, str(v)) for k, v in n.rating.items()))
+            if key in groups:
+                k = groups[key]
+                old = out[k]
+                names = old.item[len("steps "):-len(" conductors")] if old.item.startswith("steps ") else \
+                    old.item[len("step "):-len(" conductors")]
+                out[k] = replace(old, item=f"steps {names}, {n.item[len('step '):-len(' conductors')]} conductors",
+                                 quantity=old.quantity + n.quantity,
+                                 basis=n.basis if n.basis.endswith(", for each step") else n.basis + ", for each step")
+                continue
+            groups[key] = len(out)
+        out.append(n)
     return out
 
 
