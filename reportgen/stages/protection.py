@@ -317,6 +317,8 @@ def run(d) -> None:
         "motor_capacitors": [mc["result"].as_dict() | {"load": mc["load"], "q_var": mc["q_var"]}
                              for mc in motors],
     })
+    summ["step_groups"] = _step_groups(summ["steps"])
+    summ["switching"]["rows"] = _inrush_rows(inrush_results)
     d.json["protection"] = summ
     lines = [_line_dict(ln, descriptions) for ln in bom.lines]
     d.bom = lines
@@ -339,6 +341,39 @@ def run(d) -> None:
     d.cautions += _cautions(rules, discharge, energy, dis)
     d.sections.append("sections/protection.html")
     d.figures["one_line"] = lambda d: _one_line(d)
+
+
+def _names(names: list[str]) -> str:
+    return names[0] if len(names) == 1 else (f"{names[0]}–{names[-1]}" if len(names) > 2 else ", ".join(names))
+
+
+def _step_groups(steps: list[dict]) -> list[dict]:
+    """Consecutive steps with the same units and ratings, shown once: {names, count_steps, step}."""
+    out: list[dict] = []
+    for st in steps:
+        key = (st["unit"], st["count"], st["detuning_pct"], st["fuse_a"], st["conductor"]["size"],
+               st["conductor"]["sets"], round(st["disconnect_min_a"], 9))
+        if out and out[-1]["key"] == key:
+            out[-1]["names_list"].append(st["name"])
+        else:
+            out.append({"key": key, "names_list": [st["name"]], "step": st})
+    return [{"names": _names(g["names_list"]), "steps": len(g["names_list"]), "step": g["step"]} for g in out]
+
+
+def _inrush_rows(results) -> list[dict]:
+    """Switching events with the same case, peak and frequency, shown once."""
+    rows: list[dict] = []
+    for r in results:
+        step, _, event = r.name.partition(" (")
+        event = event.rstrip(")")
+        key = (r.case, event, round(r.peak_a, 6), round(r.frequency_hz, 6), r.passed)
+        for row in rows:
+            if row["key"] == key:
+                row["names_list"].append(step)
+                break
+        else:
+            rows.append({"key": key, "names_list": [step], "event": event, "result": r.as_dict()})
+    return [{"names": _names(x["names_list"]), "event": x["event"], **x["result"]} for x in rows]
 
 
 def _one_line(d):
