@@ -47,14 +47,18 @@ def renderer_share(src: Path, out: Path) -> tuple[float, float, float]:
     from reportgen.render import figures, pdf
 
     spent = {"weasyprint": 0.0, "matplotlib": 0.0}
+    depth = {"weasyprint": 0, "matplotlib": 0}
 
     def timed(fn, key):
         def wrapper(*a, **k):
+            depth[key] += 1
             t = time.perf_counter()
             try:
                 return fn(*a, **k)
             finally:
-                spent[key] += time.perf_counter() - t
+                depth[key] -= 1
+                if depth[key] == 0:  # nested calls (a figure calling to_svg) are counted once
+                    spent[key] += time.perf_counter() - t
         return wrapper
 
     pdf.write_pdf = timed(pdf.write_pdf, "weasyprint")
