@@ -7,7 +7,7 @@ Sources (confidence marks as in shared REFERENCES.md):
   the other entries are hand calculations to three decimals.
 - J. Bird, Electrical Circuit Theory and Technology, Problem 16.12 (published inputs, answers
   as printed: 40.0 A, 26.32 A, 23.0 A, 305 uF, 5.52 kvar).
-- T. Kuphaldt, Lessons in Electric Circuits vol. II ch. 11, power factor correction example
+- T. Kuphaldt, open textbook on electric circuits, vol. II (AC) ch. 11, power factor correction example
   (published inputs and answers: 2307.6 VA, PF 0.650, 1753.6 var, 32.85 ohm, 80.76 uF).
 - TheAlgorithms/Python electronics/shunt_capacitor_power_factor_correction.py doctest
   (an open-source reference implementation; value as indexed: 3.1043753e-4 F).
