@@ -2,28 +2,15 @@
 
 import json
 import shutil
-import subprocess
 from pathlib import Path
 
 import pytest
 
 from reportgen.cli import main
+from reports import norm, pdf_text
 from reportgen.render.fmt import kvar, pf, qty
 
 DEMO = Path(__file__).resolve().parent.parent / "projects_demo"
-
-
-def pdf_text(path: Path) -> str:
-    if shutil.which("pdftotext"):
-        return subprocess.run(["pdftotext", "-layout", str(path), "-"], capture_output=True, text=True,
-                              check=True).stdout
-    import pypdf
-
-    return "\n".join(page.extract_text() for page in pypdf.PdfReader(str(path)).pages)
-
-
-def norm(s: str) -> str:
-    return " ".join(s.replace("\u00a0", " ").replace("\u2009", " ").split())
 
 
 @pytest.fixture(scope="module")

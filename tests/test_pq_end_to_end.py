@@ -4,29 +4,16 @@ from __future__ import annotations
 
 import json
 import shutil
-import subprocess
 from pathlib import Path
 
 import pytest
 
 from reportgen.cli import main
+from reports import norm, pdf_text
 from reportgen.render.fmt import kvar, num, pf, qty
 
 DEMO = Path(__file__).resolve().parent.parent / "projects_demo"
 NAMES = ("plastics-drives-480v", "plastics-drives-480v-detuned")
-
-
-def pdf_text(path: Path) -> str:
-    if shutil.which("pdftotext"):
-        return subprocess.run(["pdftotext", "-layout", str(path), "-"], capture_output=True, text=True,
-                              check=True).stdout
-    import pypdf
-
-    return "\n".join(page.extract_text() for page in pypdf.PdfReader(str(path)).pages)
-
-
-def norm(s: str) -> str:
-    return " ".join(s.replace("\u00a0", " ").replace("\u2009", " ").split())
 
 
 @pytest.fixture(scope="module")

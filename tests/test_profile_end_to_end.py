@@ -12,7 +12,7 @@ import pytest
 from reportgen.cli import main
 from reportgen.render.fmt import kvar, num, qty
 
-from test_end_to_end import norm, pdf_text
+from reports import norm, pdf_text
 
 DEMO = Path(__file__).resolve().parent.parent / "projects_demo"
 NAMES = ("eastfield-dc-480v", "eastfield-dc-design-480v")

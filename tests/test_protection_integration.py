@@ -68,7 +68,7 @@ from reportgen.cli import main
 from reportgen.project import load_project
 from reportgen.render.fmt import qty
 
-from test_end_to_end import norm, pdf_text
+from reports import norm, pdf_text
 
 DEMO = Path(__file__).resolve().parent.parent / "projects_demo"
 
